@@ -1,13 +1,13 @@
 #!/usr/bin/env node
 import { pathToFileURL } from 'node:url';
-import { type CliIo, type Command, println, UsageError } from './io.js';
+import { type CliIo, type Command, println } from './io.js';
 
 /** Commands by their words; each module is loaded only when used. */
 const COMMANDS: Record<string, () => Promise<Command>> = {
-  // formulas: () => import('./commands/formulas.js').then((m) => m.formulasCommand),
+  formulas: () => import('./commands/formulas.js').then((m) => m.formulasCommand),
   // score: () => import('./commands/score.js').then((m) => m.scoreCommand),
-  // 'rules check': () => import('./commands/rules.js').then((m) => m.rulesCheckCommand),
-  // 'rules diff': () => import('./commands/rules.js').then((m) => m.rulesDiffCommand),
+  'rules check': () => import('./commands/rules.js').then((m) => m.rulesCheckCommand),
+  'rules diff': () => import('./commands/rules.js').then((m) => m.rulesDiffCommand),
 };
 
 const USAGE = `peel — rule-based fragmentation trees for glycosylated natural products (putative identifications)
@@ -35,19 +35,20 @@ export async function main(argv: string[], io: CliIo): Promise<number> {
   try {
     return await (await load())(rest, io);
   } catch (err) {
-    if (err instanceof Error && (err as { code?: string }).code === 'usage') {
-      println(io.stderr, `peel ${words}: ${err.message}`);
+    // Classify by code, not class (CONVENTIONS.md §6): usage mistakes exit 2, known failures 1.
+    const code = err instanceof Error ? (err as Error & { code?: unknown }).code : undefined;
+    if (code === 'usage') {
+      println(io.stderr, `peel ${words}: ${(err as Error).message}`);
       return 2;
     }
-    if (err instanceof Error && typeof (err as { code?: unknown }).code === 'string') {
-      println(io.stderr, `peel ${words}: ${(err as { code: string }).code}: ${err.message}`);
+    if (typeof code === 'string') {
+      println(io.stderr, `peel ${words}: ${code}: ${(err as Error).message}`);
       return 1;
     }
     throw err;
   }
 }
 
-void UsageError;
 
 if (import.meta.url === pathToFileURL(process.argv[1] ?? '').href) {
   main(process.argv.slice(2), {

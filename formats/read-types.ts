@@ -15,7 +15,16 @@ export type ReadIssueCode =
   | 'duplicate-id'
   | 'invalid-spectrum'
   | 'not-ms2'
-  | 'unknown-key';
+  | 'unknown-key'
+  | 'missing-id'
+  | 'ambiguous-charge'
+  | 'unsorted-peaks'
+  | 'bad-value'
+  | 'profile-data'
+  | 'multiple-precursors'
+  | 'too-large'
+  | 'unknown-format'
+  | 'bad-compression';
 
 /** Where in the input a problem sits: a line (text formats) and/or a spectrum index and id. */
 export interface ReadPosition {
@@ -24,6 +33,8 @@ export interface ReadPosition {
   /** 0-based index of the spectrum in the file (counting every spectrum block, good or bad). */
   index?: number;
   id?: string;
+  /** JSON pointer (RFC 6901) into the input document, for JSON input. */
+  path?: string;
 }
 
 /** One problem found while reading; `severity: 'error'` means the spectrum was skipped. */

@@ -99,6 +99,11 @@ const HILL_NO_C = ELEMENT_SYMBOLS.map((_, i) => i).sort((a, b) =>
   ELEMENT_SYMBOLS[a]!.localeCompare(ELEMENT_SYMBOLS[b]!),
 );
 
+// Symbol-and-count pieces ('C', 'C2', …) written once, so formatting many formulas converts no numbers.
+const SYMBOL_COUNT_TEXT = ELEMENT_SYMBOLS.map((sym) =>
+  Array.from({ length: 256 }, (_, n) => (n === 1 ? sym : sym + String(n))),
+);
+
 /**
  * Formats a formula in Hill order with a charge suffix: `C15H11O6+`, `C21H19O11-`; charges above one are
  * written sign first (`C6H14O6+2`) because `C6H14O62+` would read as O62.
@@ -106,10 +111,12 @@ const HILL_NO_C = ELEMENT_SYMBOLS.map((_, i) => i).sort((a, b) =>
 export function formatFormula(f: Formula): string {
   const order = f.counts[C] !== 0 ? HILL_WITH_C : HILL_NO_C;
   let out = '';
-  for (const i of order) {
+  for (let k = 0; k < order.length; k++) {
+    const i = order[k]!;
     const n = f.counts[i]!;
     if (n === 0) continue;
-    out += ELEMENT_SYMBOLS[i]! + (n === 1 ? '' : String(n));
+    const texts = SYMBOL_COUNT_TEXT[i]!;
+    out += n > 0 && n < texts.length ? texts[n]! : ELEMENT_SYMBOLS[i]! + String(n);
   }
   return out + formatCharge(f.charge);
 }

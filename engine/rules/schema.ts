@@ -9,7 +9,8 @@ const Name = z
   .string()
   .min(1)
   .max(80)
-  .regex(/^[A-Za-z0-9][A-Za-z0-9,'′″\-_ ()]*$/, "letters, digits, spaces and , ' - _ ( )");
+  // A leading "(" allows names such as "(epi)catechin" for stereoisomers MS cannot tell apart.
+  .regex(/^[A-Za-z0-9(][A-Za-z0-9,'′″\-_ ()]*$/, "letters, digits, spaces and , ' - _ ( )");
 const Source = z.string().min(1).max(400);
 const ElementRange = z.tuple([z.number().int().min(0), z.number().int().min(0)]);
 const ElementRanges = z.record(z.string(), ElementRange);

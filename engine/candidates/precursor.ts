@@ -1,0 +1,197 @@
+import { ELECTRON_MASS } from '../chem/elements.js';
+import { createFormulaFilter } from '../chem/filters.js';
+import type { IonType } from '../chem/ions.js';
+import { type Counts, countsMass, formulaKey, NE } from '../graph/counts.js';
+import type { AglyconeGroup, Composition, CompiledRuleSet } from '../rules/compile.js';
+import { type CleanSpectrum, tolDa } from '../spectrum/clean.js';
+
+/** What the aglycone of an interpretation is: a library group, or an unknown formula (open world). */
+export type AglyconeChoice =
+  | { readonly kind: 'library'; readonly group: AglyconeGroup }
+  | { readonly kind: 'unknown'; readonly counts: Counts };
+
+/** One reading of the precursor: an aglycone plus a glycan composition under one ion type. */
+export interface Interpretation {
+  /** Ion type of this reading (a hypothesis may hold several: cyanidin [M]+ and kaempferol [M+H]+). */
+  readonly ion: IonType;
+  readonly aglycone: AglyconeChoice;
+  readonly composition: Composition;
+  /** Index of the composition in the compiled rule set's list (identity for grouping). */
+  readonly compositionIndex: number;
+}
+
+/** A precursor ion formula with every interpretation that gives it. */
+export interface PrecursorHypothesis {
+  /** Ion type of the first interpretation (every interpretation gives the same ion formula). */
+  readonly ion: IonType;
+  /** Atoms of the precursor ion. */
+  readonly counts: Counts;
+  readonly charge: number;
+  readonly key: number;
+  /** Theoretical m/z and the error of the measured one. */
+  readonly mz: number;
+  readonly ppm: number;
+  readonly interpretations: Interpretation[];
+}
+
+/** Tolerances and limits of {@link interpretPrecursor}. */
+export interface PrecursorOptions {
+  precursorPpm: number;
+  fragmentPpm: number;
+  floorDa: number;
+  /** Peaks at least this fraction of the base peak are tried as the Y0 of an unknown aglycone. */
+  unknownY0MinRelative: number;
+}
+
+/**
+ * The atoms delta of fragment ions relative to the neutral fragment, for an ion type: the adduct's atoms
+ * less the neutral it loses first (formate: +HCOO − HCOOH = −H), or +H/−H for multiply charged ions whose
+ * fragments are singly charged.
+ */
+export function fragmentDelta(ion: IonType, rules: CompiledRuleSet): { counts: Counts; charge: number } {
+  const counts = Int32Array.from(ion.delta.counts);
+  const adduct = rules.adductLosses.get(ion.name);
+  if (adduct) for (let e = 0; e < NE; e++) counts[e]! -= adduct.counts[e]!;
+  if (Math.abs(ion.charge) > 1) {
+    // [M+2H]2+ → [F+H]+; [M-2H]2- → [F-H]-.
+    const sign = Math.sign(ion.charge);
+    counts.fill(0);
+    counts[1] = sign;
+    return { counts, charge: sign };
+  }
+  return { counts, charge: ion.charge };
+}
+
+const H_MASS = 1.00782503223;
+const WATER = 2 * 1.00782503223 + 15.99491461957;
+
+function hasPeak(s: CleanSpectrum, mz: number, o: PrecursorOptions): boolean {
+  const tol = tolDa(mz, o.fragmentPpm, o.floorDa);
+  let lo = 0;
+  let hi = s.mz.length;
+  while (lo < hi) {
+    const m = (lo + hi) >> 1;
+    if (s.mz[m]! < mz - tol) lo = m + 1;
+    else hi = m;
+  }
+  return lo < s.mz.length && s.mz[lo]! <= mz + tol && lo !== s.precursorIndex;
+}
+
+function compositionRange(masses: Float64Array, lo: number, hi: number): [number, number] {
+  let a = 0;
+  let b = masses.length;
+  while (a < b) {
+    const m = (a + b) >> 1;
+    if (masses[m]! < lo) a = m + 1;
+    else b = m;
+  }
+  let end = a;
+  while (end < masses.length && masses[end]! <= hi) end++;
+  return [a, end];
+}
+
+/**
+ * Every precursor ion formula that an aglycone (library, or unknown with a Y0 peak in the spectrum) plus a
+ * glycan composition of the rule set explains within the precursor tolerance, grouped by formula.
+ */
+export function interpretPrecursor(
+  precursorMz: number,
+  charge: number | undefined,
+  polarity: 'positive' | 'negative',
+  spectrum: CleanSpectrum,
+  rules: CompiledRuleSet,
+  options: PrecursorOptions,
+): PrecursorHypothesis[] {
+  const byKey = new Map<number, PrecursorHypothesis>();
+  const ions = rules.ionTypes[polarity].filter((t) =>
+    charge === undefined ? Math.abs(t.charge) === 1 : Math.abs(t.charge) === Math.abs(charge),
+  );
+  const masses = rules.compositionMasses;
+  const aglFilter = createFormulaFilter({ rdbe: { electrons: 'even', min: 0 }, ratios: 'extended' });
+  const aglyconeKeys = new Set(rules.aglyconeGroups.map((g) => formulaKey(g.counts, g.cation ? 1 : 0)));
+
+  // Whether the interpretation's aglycone is evidenced: its Y0 (or radical Y0) ion, or a cross-ring ion of a
+  // C-linkable residue on it. Readings without either could never be annotated, so they are not pursued.
+  const keyIon = (ion: IonType, aglCounts: Counts, cation: boolean, comp: Composition): boolean => {
+    const frag = cation ? { counts: new Int32Array(NE), charge: 1 } : fragmentDelta(ion, rules);
+    const z = frag.charge;
+    const y0 = countsMass(aglCounts) + countsMass(frag.counts);
+    const at = (atoms: number) => hasPeak(spectrum, (atoms - z * ELECTRON_MASS) / Math.abs(z), options);
+    if (at(y0)) return true;
+    if (polarity === 'negative' && at(y0 - H_MASS)) return true;
+    for (let x = 0; x < rules.crossRingResidue.length; x++) {
+      const r = rules.crossRingResidue[x]!;
+      if (comp.units[r]! < 1 || !rules.units[r]!.linkages.includes('C')) continue;
+      const ion1 = y0 + rules.units[r]!.mass - rules.crossRingMasses[x]!;
+      if (at(ion1) || at(ion1 - WATER)) return true;
+    }
+    return false;
+  };
+
+  const add = (ion: IonType, agl: AglyconeChoice, compIndex: number, aglCounts: Counts) => {
+    const comp = rules.compositions[compIndex]!;
+    if (!keyIon(ion, aglCounts, agl.kind === 'library' && agl.group.cation, comp)) return;
+    const counts = new Int32Array(NE);
+    for (let e = 0; e < NE; e++) counts[e] = (aglCounts[e]! + comp.counts[e]!) * ion.multiplier + ion.delta.counts[e]!;
+    for (let e = 0; e < NE; e++) if (counts[e]! < 0) return;
+    const key = formulaKey(counts, ion.charge);
+    let h = byKey.get(key);
+    if (!h) {
+      const mz = (countsMass(counts) - ion.charge * ELECTRON_MASS) / Math.abs(ion.charge);
+      h = { ion, counts, charge: ion.charge, key, mz, ppm: ((precursorMz - mz) / mz) * 1e6, interpretations: [] };
+      byKey.set(key, h);
+    }
+    h.interpretations.push({ ion, aglycone: agl, composition: comp, compositionIndex: compIndex });
+  };
+
+  for (const ion of ions) {
+    const z = ion.charge;
+    if (ion.multiplier !== 1) continue;
+    const atoms = precursorMz * Math.abs(z) + z * ELECTRON_MASS;
+    const tol = tolDa(atoms, options.precursorPpm, 0);
+    const mNeutral = atoms - ion.deltaMass;
+    const flavylium = ion.name === '[M]+';
+    // Library aglycones: M = aglycone + composition.
+    for (const g of rules.aglyconeGroups) {
+      if (g.cation !== flavylium) continue;
+      const [a, b] = compositionRange(masses, mNeutral - g.mass - tol, mNeutral - g.mass + tol);
+      for (let k = a; k < b; k++) add(ion, { kind: 'library', group: g }, k, g.counts);
+    }
+    if (flavylium) continue;
+    // Unknown aglycones: an intense fragment is the Y0; the precursor minus it is a composition; the
+    // aglycone's formula is the decomposition of the precursor minus the composition (precursor tolerance).
+    const frag = fragmentDelta(ion, rules);
+    const fragDeltaMass = countsMass(frag.counts);
+    let base = 0;
+    for (let i = 0; i < spectrum.intensity.length; i++) base = Math.max(base, spectrum.intensity[i]!);
+    const seen = new Set<number>();
+    for (let i = 0; i < spectrum.mz.length; i++) {
+      if (spectrum.intensity[i]! < options.unknownY0MinRelative * base || i === spectrum.precursorIndex) continue;
+      const fz = frag.charge;
+      const fragAtoms = spectrum.mz[i]! * Math.abs(fz) + fz * ELECTRON_MASS;
+      for (const radical of polarity === 'negative' ? [0, 1] : [0]) {
+        // A radical [Y0−H]−• is one H lighter than Y0.
+        const aglMass = fragAtoms - fragDeltaMass + radical * H_MASS;
+        const ftol = tolDa(spectrum.mz[i]!, options.fragmentPpm, options.floorDa) + tol;
+        const [a, b] = compositionRange(masses, mNeutral - aglMass - ftol, mNeutral - aglMass + ftol);
+        for (let k = a; k < b; k++) {
+          if (seen.has(k)) continue;
+          seen.add(k);
+          const target = mNeutral - masses[k]!;
+          rules.aglyconeDecomposer.forEach(
+            target,
+            { ppm: 0, floorDa: tol },
+            (c) => {
+              if (!aglFilter(c, 0)) return;
+              const key = formulaKey(c, 0);
+              if (aglyconeKeys.has(key)) return; // a library aglycone: already interpreted above
+              add(ion, { kind: 'unknown', counts: Int32Array.from(c) }, k, c);
+            },
+            { charge: 0 },
+          );
+        }
+      }
+    }
+  }
+  return [...byKey.values()];
+}

@@ -1,0 +1,257 @@
+import type { Unit } from '../rules/compile.js';
+
+/**
+ * How the units of a composition are stacked: every unit instance hangs from the aglycone (-1) or from a
+ * residue instance; residues bound to the aglycone are O- or C-linked; acyl groups are esters.
+ */
+export interface Topology {
+  /** Unit index (into the rule set's units) of each instance. */
+  readonly unit: readonly number[];
+  /** Parent instance of each instance, -1 for the aglycone. */
+  readonly parent: readonly number[];
+  readonly linkage: readonly ('O' | 'C' | 'ester')[];
+  /** Canonical stacking string without the aglycone, e.g. `[Hex[Pen]][Hex]` (docs/stacking-notation.md). */
+  readonly notation: string;
+  /** Keys ({@link removedKey}) of the unit multisets whose loss gives a Y ion of this topology. */
+  readonly yLosses: ReadonlySet<number>;
+  /** Keys of unit multisets that can leave as one oxonium (B) or acylium ion (terminal subtrees). */
+  readonly bUnits: ReadonlySet<number>;
+  /** Key of the multiset whose loss leaves the bare aglycone (every unit but C-linked residues). */
+  readonly y0Loss: number;
+  /** Whether some residue is C-linked (cross-ring ions expected, no loss of that residue). */
+  readonly cLinked: boolean;
+}
+
+/** A number identifying a unit count vector (counts < 8 per unit). */
+export function removedKey(counts: ArrayLike<number>): number {
+  let k = 0;
+  for (let u = counts.length - 1; u >= 0; u--) k = k * 8 + counts[u]!;
+  return k;
+}
+
+interface TreeShape {
+  unit: number;
+  children: TreeShape[];
+  text: string;
+}
+
+/** Options of {@link enumerateTopologies}. */
+export interface TopologyOptions {
+  /** Also produce variants with up to this many C-linked residues on the aglycone. @defaultValue 0 */
+  maxCLinked?: number;
+  /** Stop after this many topologies. @defaultValue 3000 */
+  limit?: number;
+}
+
+/**
+ * Every distinct topology (up to symmetry) of a composition: rooted forests of its residues on the aglycone,
+ * each acyl group on one residue (or the aglycone), optionally C-linked variants of aglycone-bound residues.
+ */
+export function enumerateTopologies(
+  composition: Uint8Array,
+  units: readonly Unit[],
+  options: TopologyOptions = {},
+): Topology[] {
+  const limit = options.limit ?? 3000;
+  const residues: number[] = [];
+  const acyls: number[] = [];
+  composition.forEach((n, u) => {
+    for (let k = 0; k < n; k++) (units[u]!.kind === 'residue' ? residues : acyls).push(u);
+  });
+  const name = (u: number) => units[u]!.name;
+  const forestMemo = new Map<string, TreeShape[][]>();
+
+  // Forests over a multiset of residue units (sorted array), canonical (children sorted by text).
+  const forests = (ms: number[]): TreeShape[][] => {
+    const key = ms.join(',');
+    const hit = forestMemo.get(key);
+    if (hit) return hit;
+    const out: TreeShape[][] = [];
+    if (ms.length === 0) {
+      out.push([]);
+    } else {
+      // The tree holding the first element takes a sub-multiset containing it; the rest is a forest.
+      const first = ms[0]!;
+      const rest = ms.slice(1);
+      const seen = new Set<string>();
+      for (const sub of subMultisetsOf(rest)) {
+        const treeMs = [first, ...sub].sort((a, b) => a - b);
+        const others = minus(rest, sub);
+        for (const t of trees(treeMs)) {
+          for (const f of forests(others)) {
+            const forest = [t, ...f].sort((a, b) => (a.text < b.text ? -1 : a.text > b.text ? 1 : 0));
+            const text = forest.map((x) => x.text).join('');
+            if (seen.has(text)) continue;
+            seen.add(text);
+            out.push(forest);
+            if (out.length > limit) break;
+          }
+        }
+      }
+    }
+    forestMemo.set(key, out);
+    return out;
+  };
+  const trees = (ms: number[]): TreeShape[] => {
+    const out: TreeShape[] = [];
+    const seen = new Set<number>();
+    for (let i = 0; i < ms.length; i++) {
+      const root = ms[i]!;
+      if (seen.has(root)) continue;
+      seen.add(root);
+      const rest = ms.slice(0, i).concat(ms.slice(i + 1));
+      for (const f of forests(rest)) {
+        out.push({ unit: root, children: f, text: `[${name(root)}${f.map((c) => c.text).join('')}]` });
+      }
+    }
+    return out;
+  };
+
+  const out: Topology[] = [];
+  const seenText = new Set<string>();
+  for (const forest of forests(residues)) {
+    // Flatten to instances.
+    const unit: number[] = [];
+    const parent: number[] = [];
+    const walk = (t: TreeShape, p: number) => {
+      const id = unit.length;
+      unit.push(t.unit);
+      parent.push(p);
+      for (const c of t.children) walk(c, id);
+    };
+    for (const t of forest) walk(t, -1);
+    const nRes = unit.length;
+    // Acyl placements: each acyl on the aglycone (-1) or one residue instance.
+    const place = (k: number, hosts: number[]) => {
+      if (out.length >= limit) return;
+      if (k === acyls.length) {
+        const u2 = unit.concat(acyls);
+        const p2 = parent.concat(hosts);
+        const rootRes = [...Array(nRes).keys()].filter((i) => parent[i] === -1 && units[unit[i]!]!.linkages.includes('C'));
+        const maxC = Math.min(options.maxCLinked ?? 0, rootRes.length);
+        for (const cSet of subsetsUpTo(rootRes, maxC)) {
+          const link = u2.map((_, i) => (i >= nRes ? 'ester' : cSet.includes(i) ? 'C' : 'O')) as ('O' | 'C' | 'ester')[];
+          const notation = canonical(u2, p2, link, units);
+          if (seenText.has(notation)) continue;
+          seenText.add(notation);
+          out.push(makeTopology(u2, p2, link, notation, composition.length));
+        }
+        return;
+      }
+      for (let h = -1; h < nRes; h++) place(k + 1, [...hosts, h]);
+    };
+    place(0, []);
+    if (out.length >= limit) break;
+  }
+  return out;
+}
+
+function subsetsUpTo<T>(items: T[], max: number): T[][] {
+  const out: T[][] = [[]];
+  const walk = (start: number, cur: T[]) => {
+    if (cur.length === max) return;
+    for (let i = start; i < items.length; i++) {
+      const next = [...cur, items[i]!];
+      out.push(next);
+      walk(i + 1, next);
+    }
+  };
+  walk(0, []);
+  return out;
+}
+
+function subMultisetsOf(ms: number[]): number[][] {
+  // ms is sorted; produce each distinct sub-multiset once.
+  const groups: [number, number][] = [];
+  for (const x of ms) {
+    const last = groups[groups.length - 1];
+    if (last && last[0] === x) last[1]++;
+    else groups.push([x, 1]);
+  }
+  const out: number[][] = [];
+  const walk = (g: number, cur: number[]) => {
+    if (g === groups.length) {
+      out.push(cur);
+      return;
+    }
+    const [x, n] = groups[g]!;
+    for (let k = 0; k <= n; k++) walk(g + 1, k === 0 ? cur : [...cur, ...Array(k).fill(x)]);
+  };
+  walk(0, []);
+  return out;
+}
+
+function minus(ms: number[], sub: number[]): number[] {
+  const out = ms.slice();
+  for (const x of sub) out.splice(out.indexOf(x), 1);
+  return out;
+}
+
+/** Canonical stacking text of instances (children sorted), without the aglycone name. */
+export function canonical(
+  unit: readonly number[],
+  parent: readonly number[],
+  linkage: readonly ('O' | 'C' | 'ester')[],
+  units: readonly Unit[],
+): string {
+  const text = (i: number): string => {
+    const kids = [...parent.keys()].filter((j) => parent[j] === i).map(text).sort();
+    return `[${linkage[i] === 'C' ? 'C-' : ''}${units[unit[i]!]!.name}${kids.join('')}]`;
+  };
+  return [...parent.keys()]
+    .filter((j) => parent[j] === -1)
+    .map(text)
+    .sort()
+    .join('');
+}
+
+function makeTopology(
+  unit: number[],
+  parent: number[],
+  linkage: ('O' | 'C' | 'ester')[],
+  notation: string,
+  nUnits: number,
+): Topology {
+  const n = unit.length;
+  const yLosses = new Set<number>();
+  const bUnits = new Set<number>();
+  // Retained sets: closed towards the aglycone, holding every C-linked residue.
+  const fixed = linkage.map((l, i) => l === 'C' && parent[i] === -1);
+  const counts = new Uint8Array(nUnits);
+  for (let mask = 0; mask < 1 << n; mask++) {
+    let ok = true;
+    for (let i = 0; i < n && ok; i++) {
+      const kept = (mask >> i) & 1;
+      if (!kept && fixed[i]) ok = false;
+      if (kept && parent[i]! >= 0 && !((mask >> parent[i]!) & 1)) ok = false;
+    }
+    if (!ok) continue;
+    counts.fill(0);
+    for (let i = 0; i < n; i++) if (!((mask >> i) & 1)) counts[unit[i]!]!++;
+    yLosses.add(removedKey(counts));
+  }
+  // Terminal subtrees (a unit with all its descendants) leave as B / acylium ions.
+  for (let i = 0; i < n; i++) {
+    if (fixed[i]) continue;
+    counts.fill(0);
+    const stack = [i];
+    while (stack.length) {
+      const j = stack.pop()!;
+      counts[unit[j]!]!++;
+      for (let k = 0; k < n; k++) if (parent[k] === j) stack.push(k);
+    }
+    bUnits.add(removedKey(counts));
+  }
+  counts.fill(0);
+  for (let i = 0; i < n; i++) if (!fixed[i]) counts[unit[i]!]!++;
+  return {
+    unit,
+    parent,
+    linkage,
+    notation,
+    yLosses,
+    bUnits,
+    y0Loss: removedKey(counts),
+    cLinked: fixed.some(Boolean),
+  };
+}

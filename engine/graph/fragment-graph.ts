@@ -1,0 +1,440 @@
+import { ELECTRON_MASS } from '../chem/elements.js';
+import type { PrecursorHypothesis } from '../candidates/precursor.js';
+import { fragmentDelta } from '../candidates/precursor.js';
+import type { CompiledRuleSet } from '../rules/compile.js';
+import { type CleanSpectrum, tolDa } from '../spectrum/clean.js';
+import { buildGraph, type FragGraph } from '../tree/graph.js';
+import { type Counts, countsMass, countsRdbe, formulaKey, isSubCounts, NE } from './counts.js';
+
+/**
+ * How a fragment formula derives from the precursor under one composition: which units it lost, which
+ * small-loss combination, whether it also lost an H• (radical Y ions in negative mode), from which core
+ * (0 the precursor, 1 the precursor after its adduct loss or charge reduction).
+ */
+export interface Derivation {
+  /** Index of the composition among the hypothesis' distinct compositions. */
+  readonly comp: number;
+  readonly removed: Uint8Array;
+  readonly combo: number;
+  readonly radical: 0 | 1;
+  readonly core: 0 | 1;
+}
+
+/** A sugar oxonium (B) or acylium ion explanation: the units it holds (positive mode). */
+export interface CationDerivation {
+  readonly comp: number;
+  readonly units: Uint8Array;
+  /** Water lost from the oxonium ion (0 or 1). */
+  readonly water: 0 | 1;
+}
+
+/** One node: one formula explaining one peak, with every derivation that gives that formula. */
+export interface FragNode {
+  readonly peak: number;
+  readonly counts: Counts;
+  readonly charge: number;
+  readonly mz: number;
+  readonly ppm: number;
+  readonly derivs: Derivation[];
+  readonly cations: CationDerivation[];
+  /** Explained by decomposition only (no rule derivation). */
+  readonly generic: boolean;
+}
+
+/** Kinds of loss an edge can carry (for scoring and reporting). */
+export type LossKind = 'glycan' | 'small' | 'cross-ring' | 'adduct' | 'cation' | 'unknown' | 'implausible';
+
+/** The fragmentation graph of one precursor hypothesis, with its nodes' chemistry. */
+export interface HypothesisGraph {
+  readonly graph: FragGraph;
+  /** Node 0 is the precursor (root). */
+  readonly nodes: FragNode[];
+  /** Distinct compositions (unit count vectors) of the hypothesis, indexed by `Derivation.comp`. */
+  readonly compositions: readonly Uint8Array[];
+  /** Per edge (in graph CSR order), the kind of loss. */
+  readonly edgeKind: LossKind[];
+}
+
+/** Tolerances and weights of {@link buildHypothesisGraph}. */
+export interface GraphOptions {
+  fragmentPpm: number;
+  floorDa: number;
+  polarity: 'positive' | 'negative';
+  /** Peaks at least this fraction of the base peak that no rule explains get decomposition-only nodes. */
+  genericMinRelative: number;
+  /** At most this many decomposition-only explanations per peak. */
+  genericPerPeak: number;
+}
+
+const subCache = new Map<string, Uint8Array[]>();
+
+/** {@link subMultisets}, memoised by the vector (compositions repeat across spectra). */
+function subMultisetsCached(units: Uint8Array): Uint8Array[] {
+  const key = units.join(',');
+  let list = subCache.get(key);
+  if (!list) {
+    list = subMultisets(units);
+    if (subCache.size > 50_000) subCache.clear();
+    subCache.set(key, list);
+  }
+  return list;
+}
+
+/** Sub-multisets of a unit count vector, the empty one first. */
+export function subMultisets(units: Uint8Array): Uint8Array[] {
+  const out: Uint8Array[] = [];
+  const cur = new Uint8Array(units.length);
+  const walk = (i: number) => {
+    if (i === units.length) {
+      out.push(cur.slice());
+      return;
+    }
+    for (let k = 0; k <= units[i]!; k++) {
+      cur[i] = k;
+      walk(i + 1);
+    }
+    cur[i] = 0;
+  };
+  walk(0);
+  out.sort((a, b) => sum(a) - sum(b));
+  return out;
+}
+
+function sum(a: Uint8Array): number {
+  let s = 0;
+  for (const x of a) s += x;
+  return s;
+}
+
+/**
+ * Builds the fragmentation graph of one precursor hypothesis: every peak explained by a rule derivation
+ * (precursor − units − small losses − H•) or a sugar oxonium / acylium ion, plus decomposition-only
+ * explanations (sub-formulas of the precursor) of intense peaks no rule explains. Edges join a formula to
+ * each of its sub-formulas; their weights follow the rule priors, the child's mass error and intensity.
+ */
+export function buildHypothesisGraph(
+  h: PrecursorHypothesis,
+  spectrum: CleanSpectrum,
+  rules: CompiledRuleSet,
+  options: GraphOptions,
+): HypothesisGraph {
+  const w = rules.rules.scoring;
+  const units = rules.units;
+  const nU = units.length;
+  // Distinct compositions of the hypothesis.
+  const comps: Uint8Array[] = [];
+  const compIndex = new Map<number, number>();
+  for (const it of h.interpretations) {
+    if (!compIndex.has(it.compositionIndex)) {
+      compIndex.set(it.compositionIndex, comps.length);
+      comps.push(it.composition.units);
+    }
+  }
+  // Cores: the precursor, and the precursor after its adduct loss or charge reduction.
+  const cores: { counts: Counts; charge: number }[] = [{ counts: h.counts, charge: h.charge }];
+  const adduct = rules.adductLosses.get(h.ion.name);
+  if (adduct || Math.abs(h.charge) > 1) {
+    const frag = fragmentDelta(h.ion, rules);
+    const c = new Int32Array(NE);
+    for (let e = 0; e < NE; e++) c[e] = h.counts[e]! - h.ion.delta.counts[e]! + frag.counts[e]!;
+    if (c.every((x) => x >= 0)) cores.push({ counts: c, charge: frag.charge });
+  }
+  const combos = rules.lossCombos.filter((c) => (options.polarity === 'positive' ? c.positive : c.negative));
+  const H_MASS = 1.00782503223;
+  const comboIndex = combos.map((c) => rules.lossCombos.indexOf(c));
+
+  // Peaks as ion atom masses, ascending (the cleaned spectrum is sorted by m/z).
+  const nPeaks = spectrum.mz.length;
+  let base = 0;
+  for (let i = 0; i < nPeaks; i++) base = Math.max(base, spectrum.intensity[i]!);
+  const rootNode: FragNode = {
+    peak: spectrum.precursorIndex,
+    counts: h.counts,
+    charge: h.charge,
+    mz: h.mz,
+    ppm: h.ppm,
+    derivs: comps.map((c, ci) => ({ comp: ci, removed: new Uint8Array(c.length), combo: 0, radical: 0, core: 0 })),
+    cations: [],
+    generic: false,
+  };
+  // Nodes found so far, by peak and formula key.
+  const found = new Map<number, FragNode>();
+  const nodeFor = (p: number, counts: Counts, charge: number): FragNode => {
+    const key = formulaKey(counts, charge) * 1024 + p;
+    let node = found.get(key);
+    if (!node) {
+      const theo = (countsMass(counts) - charge * ELECTRON_MASS) / Math.abs(charge);
+      node = {
+        peak: p,
+        counts: Int32Array.from(counts),
+        charge,
+        mz: theo,
+        ppm: ((spectrum.mz[p]! - theo) / theo) * 1e6,
+        derivs: [],
+        cations: [],
+        generic: false,
+      };
+      found.set(key, node);
+    }
+    return node;
+  };
+  // Peaks whose m/z lies within tolerance of an ion of atoms mass `atoms` and charge z.
+  const peaksNear = (atoms: number, z: number, visit: (p: number) => void) => {
+    const mz = (atoms - z * ELECTRON_MASS) / Math.abs(z);
+    const tol = tolDa(mz, options.fragmentPpm, options.floorDa);
+    let lo = 0;
+    let hi = nPeaks;
+    while (lo < hi) {
+      const m = (lo + hi) >> 1;
+      if (spectrum.mz[m]! < mz - tol) lo = m + 1;
+      else hi = m;
+    }
+    for (let p = lo; p < nPeaks && spectrum.mz[p]! <= mz + tol; p++) if (p !== spectrum.precursorIndex) visit(p);
+  };
+
+  // Rule derivations: precursor (or core) − removed units − small-loss combination − H•, matched to peaks.
+  const tmp = new Int32Array(NE);
+  const lost = new Int32Array(NE);
+  comps.forEach((compUnits, ci) => {
+    const hasC = compUnits.some((n, u) => n > 0 && units[u]!.linkages.includes('C'));
+    for (const removed of subMultisetsCached(compUnits)) {
+      lost.fill(0);
+      for (let u = 0; u < nU; u++) if (removed[u]) for (let e = 0; e < NE; e++) lost[e]! += removed[u]! * units[u]!.counts[e]!;
+      const lostMass = countsMass(lost);
+      const removedAny = removed.some((x) => x > 0);
+      cores.forEach((core, coreIdx) => {
+        const coreMass = countsMass(core.counts);
+        for (let k = 0; k < combos.length; k++) {
+          const combo = combos[k]!;
+          if (combo.crossRing >= 0) {
+            // Cross-ring cleavage needs its C-linkable residue still in the fragment.
+            const r = rules.crossRingResidue[combo.crossRing]!;
+            if (!hasC || compUnits[r]! - removed[r]! < 1) continue;
+          }
+          for (let radical = 0; radical <= (options.polarity === 'negative' && !combo.radical ? 1 : 0); radical++) {
+            if (coreIdx === 0 && !removedAny && k === 0 && !radical) continue; // the precursor itself
+            const atoms = coreMass - lostMass - combo.mass - radical * H_MASS;
+            peaksNear(atoms, core.charge, (p) => {
+              let ok = true;
+              for (let e = 0; e < NE; e++) {
+                tmp[e] = core.counts[e]! - lost[e]! - combo.counts[e]! - (e === 1 ? radical : 0);
+                if (tmp[e]! < 0) ok = false;
+              }
+              if (!ok) return;
+              nodeFor(p, tmp, core.charge).derivs.push({
+                comp: ci,
+                removed,
+                combo: comboIndex[k]!,
+                radical: radical as 0 | 1,
+                core: coreIdx as 0 | 1,
+              });
+            });
+          }
+        }
+      });
+    }
+    if (options.polarity === 'positive') {
+      // Oxonium ions of one or two residues and acylium ions, [units + H]+; oxonium ions also − H2O.
+      for (const part of subMultisetsCached(compUnits)) {
+        const n = sum(part);
+        if (n === 0 || n > 2) continue;
+        let cation = true;
+        let acyls = 0;
+        for (let u = 0; u < nU; u++) {
+          if (!part[u]) continue;
+          if (!units[u]!.cation) cation = false;
+          if (units[u]!.kind === 'acyl') acyls += part[u]!;
+        }
+        if (!cation || (acyls > 0 && n > 1)) continue;
+        tmp.fill(0);
+        for (let u = 0; u < nU; u++) if (part[u]) for (let e = 0; e < NE; e++) tmp[e]! += part[u]! * units[u]!.counts[e]!;
+        tmp[1]! += 1;
+        for (let water = 0; water <= (acyls > 0 ? 0 : 1); water++) {
+          if (water) {
+            tmp[1]! -= 2;
+            tmp[3]! -= 1;
+          }
+          peaksNear(countsMass(tmp), 1, (p) => {
+            nodeFor(p, tmp, 1).cations.push({ comp: ci, units: part, water: water as 0 | 1 });
+          });
+        }
+      }
+    }
+  });
+
+  const nodes: FragNode[] = [rootNode, ...found.values()];
+  const explained = new Uint8Array(nPeaks);
+  for (const n of found.values()) explained[n.peak] = 1;
+  const rootMz = h.mz;
+  for (let p = 0; p < nPeaks; p++) {
+    if (p === spectrum.precursorIndex || explained[p]) continue;
+    const mz = spectrum.mz[p]!;
+    if (spectrum.intensity[p]! < options.genericMinRelative * base || options.genericPerPeak <= 0) continue;
+    if (mz > rootMz + tolDa(mz, options.fragmentPpm, options.floorDa) && Math.abs(h.charge) === 1) continue;
+    // No rule explains this peak: sub-formulas of the precursor (or of the charge-reduced core).
+    for (const core of cores) {
+      if (core.charge !== h.charge && Math.abs(h.charge) === 1) continue;
+      const z = core.charge;
+      const list: FragNode[] = [];
+      rules.precursorDecomposer.forEach(
+        mz,
+        { ppm: options.fragmentPpm, floorDa: options.floorDa },
+        (c, atoms) => {
+          if (countsRdbe(c) < -0.5) return;
+          const theo = (atoms - z * ELECTRON_MASS) / Math.abs(z);
+          list.push({
+            peak: p,
+            counts: Int32Array.from(c),
+            charge: z,
+            mz: theo,
+            ppm: ((mz - theo) / theo) * 1e6,
+            derivs: [],
+            cations: [],
+            generic: true,
+          });
+        },
+        { charge: z, maxCounts: core.counts },
+      );
+      list.sort((a, b) => Math.abs(a.ppm) - Math.abs(b.ppm));
+      for (const n of list.slice(0, options.genericPerPeak)) nodes.push(n);
+    }
+  }
+
+  // Topological order: heavier ions (by atoms) first; the root stays first.
+  const rest = nodes.slice(1).sort((a, b) => countsMass(b.counts) - countsMass(a.counts));
+  const ordered = [nodes[0]!, ...rest];
+  const colourOf = new Map<number, number>();
+  const colour = ordered.map((n, i) => {
+    if (i === 0) return 0;
+    let c = colourOf.get(n.peak);
+    if (c === undefined) {
+      c = colourOf.size + 1;
+      colourOf.set(n.peak, c);
+    }
+    return c;
+  });
+  // The precursor peak, when present, is the root's colour.
+  if (spectrum.precursorIndex >= 0 && colourOf.has(spectrum.precursorIndex)) {
+    const pc = colourOf.get(spectrum.precursorIndex)!;
+    for (let i = 1; i < colour.length; i++) if (colour[i] === pc) colour[i] = 0;
+  }
+
+  const edges: { from: number; to: number; weight: number; kind: LossKind }[] = [];
+  for (let v = 1; v < ordered.length; v++) {
+    const child = ordered[v]!;
+    const nodeScore = nodeTerm(child, spectrum, base, options, w.intensity, w.massError);
+    for (let u = 0; u < v; u++) {
+      const parent = ordered[u]!;
+      if (colour[u] === colour[v]) continue;
+      const best = edgePrior(parent, child, u === 0, rules, w);
+      if (best === undefined) continue;
+      edges.push({ from: u, to: v, weight: best.prior + nodeScore, kind: best.kind });
+    }
+  }
+  const graph = buildGraph(colour, edges);
+  // Kinds in CSR order (buildGraph keeps the order of edges per child).
+  const edgeKind: LossKind[] = new Array(edges.length);
+  const fill = graph.inStart.slice(0, ordered.length);
+  for (const e of edges) edgeKind[fill[e.to]!++] = e.kind;
+  return { graph, nodes: ordered, compositions: comps, edgeKind };
+}
+
+function nodeTerm(
+  n: FragNode,
+  s: CleanSpectrum,
+  base: number,
+  o: GraphOptions,
+  wI: number,
+  wM: number,
+): number {
+  const rel = s.intensity[n.peak]! / (base || 1);
+  const intensity = Math.log10(rel * 1000 + 1) / 3; // 0.1 (0.1 % of base) .. 1 (base peak)
+  const tolPpm = Math.max(o.fragmentPpm, (o.floorDa / n.mz) * 1e6);
+  const e = n.ppm / tolPpm;
+  const isotope = s.isotopes[n.peak]! > 0 ? 0.2 : 0;
+  return wI * intensity + wM * (1 - e * e) + isotope;
+}
+
+/** The best-scoring reading of the loss parent → child, or undefined when child is no sub-formula. */
+/** The reading of one edge: its prior, kind, and the derivations it joins (none for generic losses). */
+export interface EdgeReading {
+  prior: number;
+  kind: LossKind;
+  from?: Derivation;
+  to?: Derivation;
+}
+
+/** The best-scoring reading of the loss parent → child, or undefined when child is no sub-formula. */
+export function edgePrior(
+  parent: FragNode,
+  child: FragNode,
+  fromRoot: boolean,
+  rules: CompiledRuleSet,
+  w: CompiledRuleSet['rules']['scoring'],
+): EdgeReading | undefined {
+  if (child.charge !== parent.charge && !(fromRoot && Math.abs(parent.charge) > 1)) return undefined;
+  if (!isSubCounts(child.counts, parent.counts)) return undefined;
+  let best: EdgeReading | undefined;
+  const consider = (prior: number, kind: LossKind, from?: Derivation, to?: Derivation) => {
+    if (!best || prior > best.prior) best = { prior, kind, from, to };
+  };
+  const nCombos = rules.lossCombos.length;
+  for (const dp of parent.derivs) {
+    for (const dc of child.derivs) {
+      if (dp.comp !== dc.comp) continue;
+      if (dc.core < dp.core || (dc.core !== dp.core && !fromRoot)) continue;
+      if (dc.radical < dp.radical) continue;
+      if (!rules.comboNested[dp.combo * nCombos + dc.combo]) continue;
+      let unitsLost = 0;
+      let residuesLost = 0;
+      let nested = true;
+      for (let u = 0; u < dc.removed.length; u++) {
+        const d = dc.removed[u]! - dp.removed[u]!;
+        if (d < 0) {
+          nested = false;
+          break;
+        }
+        unitsLost += d;
+        if (rules.units[u]!.kind === 'residue') residuesLost += d;
+      }
+      if (!nested) continue;
+      const cp = rules.lossCombos[dp.combo]!;
+      const cc = rules.lossCombos[dc.combo]!;
+      const smallLost = cc.size - cp.size;
+      const crossLost = cc.crossRing >= 0 && cp.crossRing < 0;
+      const adductLost = dc.core !== dp.core;
+      const radicalLost = dc.radical !== dp.radical;
+      if (unitsLost === 0 && smallLost === 0 && !adductLost && !radicalLost) continue;
+      let prior: number;
+      let kind: LossKind;
+      if (unitsLost > 0) {
+        kind = 'glycan';
+        const acylsLost = unitsLost - residuesLost;
+        prior = unitsLost === 1 ? w.knownLoss : acylsLost === 1 && residuesLost === 1 ? w.knownLoss - 0.5 : w.knownLoss - 1 - 0.5 * (unitsLost - 2);
+        prior -= 0.5 * smallLost;
+      } else if (crossLost) {
+        kind = 'cross-ring';
+        prior = w.knownLoss - 0.5 - 0.5 * (smallLost - 1);
+      } else if (smallLost > 0) {
+        kind = 'small';
+        prior = w.smallLoss - 0.5 * (smallLost - 1);
+      } else {
+        kind = 'adduct';
+        prior = w.knownLoss;
+      }
+      if (adductLost && kind !== 'adduct') prior -= 0.5;
+      if (radicalLost && kind !== 'adduct') prior -= 0.3;
+      consider(prior, kind, dp, dc);
+    }
+  }
+  if (fromRoot && child.cations.length > 0) consider(w.smallLoss, 'cation');
+  if (best) return best;
+  // No rule reading: judge the loss formula itself.
+  const loss = new Int32Array(NE);
+  for (let e = 0; e < NE; e++) loss[e] = parent.counts[e]! - child.counts[e]!;
+  const mass = countsMass(loss);
+  const r = countsRdbe(loss);
+  const hasHeavy = loss[0]! + loss[2]! + loss[3]! + loss[4]! + loss[5]! > 0;
+  if (!hasHeavy || r < 0 || mass > 400) return { prior: w.implausibleLoss, kind: 'implausible' };
+  return { prior: w.unknownLoss, kind: 'unknown' };
+}

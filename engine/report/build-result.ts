@@ -1,0 +1,260 @@
+import { describeKey, type EvaluatedCandidate } from '../candidates/evaluate.js';
+import { countsMass, countsString, formulaKey, NE } from '../graph/counts.js';
+import { edgePrior } from '../graph/fragment-graph.js';
+import type { CompiledRuleSet } from '../rules/compile.js';
+import type { SolvedHypothesis } from '../score/score-spectrum.js';
+import type { CleanSpectrum } from '../spectrum/clean.js';
+import type { Spectrum } from '../spectrum/spectrum.js';
+import type { CandidateResult, SpectrumResult, TreeEdge, TreeNode } from './result.js';
+
+/** Cautions every annotated result carries (MS/MS cannot settle these). */
+export const STANDARD_CAUTIONS = [
+  'Putative identification from MS/MS: sugar stereochemistry (e.g. glucose vs galactose) and linkage positions are not determined.',
+  'Confidence level 1 requires comparison with a reference standard.',
+];
+
+const ANTHOCYANIDIN_CLASS = /anthocyan/i;
+
+/** An unassigned result with its reason. */
+export function unassignedResult(
+  spectrum: Spectrum,
+  polarity: 'positive' | 'negative',
+  code: string,
+  message: string,
+): SpectrumResult {
+  return {
+    id: spectrum.id,
+    status: 'unassigned',
+    reason: { code, message },
+    precursor: {
+      mz: spectrum.precursor.mz,
+      charge: spectrum.precursor.charge ?? (polarity === 'positive' ? 1 : -1),
+      ionType: null,
+    },
+    candidates: [],
+    cautions: [],
+  };
+}
+
+interface Ranked {
+  c: EvaluatedCandidate;
+  solved: SolvedHypothesis;
+  names: string[];
+  classes: string[];
+}
+
+/**
+ * Ranks the evaluated candidates of every hypothesis, merges same-formula aglycones into one candidate with
+ * alternatives, marks ties, assigns confidence levels and writes the result (tree of the best hypothesis).
+ */
+export function buildAnnotatedResult(
+  spectrum: Spectrum,
+  polarity: 'positive' | 'negative',
+  clean: CleanSpectrum,
+  solved: SolvedHypothesis[],
+  compiled: CompiledRuleSet,
+): SpectrumResult {
+  const rules = compiled.rules;
+  const w = rules.scoring;
+  // Merge candidates that differ only in which same-formula library aglycone they name.
+  const merged = new Map<string, Ranked>();
+  for (const s of solved) {
+    for (const c of s.candidates) {
+      const agl = c.interpretation.aglycone;
+      const key = `${c.hypothesis.key}|${formulaKey(c.y0.counts, c.y0.charge)}|${c.interpretation.compositionIndex}|${c.topology.notation}`;
+      const names = agl.kind === 'library' ? agl.group.members.map((m) => m.name) : ['unknown'];
+      const classes = agl.kind === 'library' ? agl.group.members.map((m) => m.class) : [''];
+      const prev = merged.get(key);
+      if (!prev) merged.set(key, { c, solved: s, names: [...names], classes: [...classes] });
+      else {
+        if (c.score > prev.c.score) prev.c = c;
+        names.forEach((n, i) => {
+          if (!prev.names.includes(n)) {
+            prev.names.push(n);
+            prev.classes.push(classes[i]!);
+          }
+        });
+      }
+    }
+  }
+  const ranked = [...merged.values()].sort((a, b) => b.c.score - a.c.score);
+  const best = ranked[0];
+  const cautions: string[] = [];
+  const minEvidence = best && best.c.explained >= w.minExplained && best.c.keyIonSeen;
+  if (!best || !minEvidence) {
+    const r = unassignedResult(
+      spectrum,
+      polarity,
+      best ? 'insufficient-evidence' : 'no-candidate',
+      best
+        ? `best candidate explains ${(best.c.explained * 100).toFixed(0)}% of the intensity${best.c.keyIonSeen ? '' : ' and its aglycone ion is not observed'}; at least ${(w.minExplained * 100).toFixed(0)}% with the aglycone ion is required`
+        : 'no candidate structure could be built',
+    );
+    return r;
+  }
+  const exact = best.solved.tree.exact;
+  if (!exact) cautions.push('Fragmentation tree solved by the heuristic (graph beyond the exact solver\'s size).');
+  if (clean.precursorIndex < 0) cautions.push('Precursor ion not observed in the MS2 spectrum.');
+
+  const limit = rules.limits.maxCandidates;
+  const formulaCount = new Set(ranked.map((r) => r.c.hypothesis.key)).size;
+  const candidates: CandidateResult[] = [];
+  for (let i = 0; i < ranked.length && candidates.length < limit; i++) {
+    const r = ranked[i]!;
+    const c = r.c;
+    const { primary, alternatives, note } = chooseName(r, spectrum);
+    if (note && i === 0) cautions.push(note);
+    const agl = c.interpretation.aglycone;
+    const aglClass = agl.kind === 'library' ? r.classes[r.names.indexOf(primary)] : undefined;
+    const tied = i > 0 && Math.abs(ranked[i - 1]!.c.score - c.score) < w.tieMargin;
+    const notes: string[] = [];
+    if (alternatives.length > 0) {
+      notes.push(`Same ion formula as ${alternatives.join(', ')}: MS/MS cannot tell these aglycones apart.`);
+    }
+    if (c.missing.length > 0) {
+      const names = c.missing.slice(0, 6).map((m) => (m === 'X' ? 'cross-ring X ions' : m === 'Y0' ? 'Y0' : `Y(−${describeKey(m, compiled)})`));
+      notes.push(`Predicted but not observed: ${names.join(', ')}.`);
+    }
+    const level = confidence(c, formulaCount, agl.kind === 'library', w.minExplained);
+    candidates.push({
+      rank: candidates.length + 1,
+      aglycone: {
+        name: primary,
+        formula: countsString(c.y0.counts, c.y0.charge),
+        ...(aglClass ? { class: aglClass } : {}),
+        alternatives,
+      },
+      substituents: substituents(c, compiled),
+      topology: `${agl.kind === 'library' ? primary : `<${countsString(agl.counts)}>`}${c.topology.notation}`,
+      formula: countsString(c.hypothesis.counts, c.hypothesis.charge),
+      ppm: round(c.hypothesis.ppm, 2),
+      explainedIntensity: round(c.explained, 4),
+      score: round(c.score, 3),
+      confidenceLevel: level,
+      ...(tied ? { tiedWithPrevious: true } : {}),
+      source: 'rules',
+      matchedPeaks: c.matches
+        .map((m) => ({
+          mz: round(clean.mz[m.node.peak]!, 5),
+          intensity: round(clean.intensity[m.node.peak]!, 4),
+          label: m.label,
+          formula: countsString(m.node.counts, m.node.charge),
+          ppm: round(m.node.ppm, 2),
+        }))
+        .sort((a, b) => b.mz - a.mz),
+      ...(notes.length ? { notes } : {}),
+    });
+  }
+  if (candidates.some((c) => c.tiedWithPrevious) || candidates[1]?.tiedWithPrevious) {
+    cautions.push('Some candidates are tied: the spectrum does not separate them.');
+  }
+  return {
+    id: spectrum.id,
+    status: 'annotated',
+    precursor: {
+      mz: spectrum.precursor.mz,
+      charge: best.c.hypothesis.charge,
+      ionType: best.c.interpretation.ion.name,
+    },
+    candidates,
+    tree: reportTree(best.solved, clean, compiled),
+    cautions: [...STANDARD_CAUTIONS, ...cautions],
+  };
+}
+
+function round(x: number, digits: number): number {
+  const f = 10 ** digits;
+  return Math.round(x * f) / f;
+}
+
+/** Schymanski et al. 2014 levels as Peel applies them (docs/confidence.md). */
+function confidence(c: EvaluatedCandidate, formulaCount: number, library: boolean, minExplained: number): number {
+  const strong = c.explained >= minExplained && c.keyIonSeen;
+  if (library && strong) return 3; // tentative structure: aglycone + sugar classes, stereo/positions open
+  if (strong && formulaCount === 1) return 4; // unequivocal molecular formula
+  return 5;
+}
+
+function chooseName(r: Ranked, spectrum: Spectrum): { primary: string; alternatives: string[]; note?: string } {
+  if (r.names.length <= 1) return { primary: r.names[0]!, alternatives: [] };
+  const meta = spectrum.metadata;
+  const lambda = meta?.lambdaMaxNm;
+  const wanted = meta?.compoundClass?.toLowerCase();
+  let pick = -1;
+  let why = '';
+  if (wanted) {
+    pick = r.classes.findIndex((c) => c.toLowerCase() === wanted || c.toLowerCase().includes(wanted));
+    if (pick >= 0) why = `compound class "${meta?.compoundClass}" given with the spectrum`;
+  }
+  if (pick < 0 && typeof lambda === 'number') {
+    // Anthocyanins absorb near 520 nm in the visible; flavonols/flavones below ~380 nm (common practice).
+    const antho = lambda >= 480;
+    pick = r.classes.findIndex((c) => ANTHOCYANIDIN_CLASS.test(c) === antho);
+    if (pick >= 0) why = `visible absorbance maximum ${lambda} nm given with the spectrum`;
+  }
+  if (pick < 0) return { primary: r.names[0]!, alternatives: r.names.slice(1) };
+  const primary = r.names[pick]!;
+  return {
+    primary,
+    alternatives: r.names.filter((_, i) => i !== pick),
+    note: `Tie between same-formula aglycones (${r.names.join(', ')}) broken by the ${why}.`,
+  };
+}
+
+function substituents(c: EvaluatedCandidate, compiled: CompiledRuleSet): CandidateResult['substituents'] {
+  const t = c.topology;
+  return t.unit.map((u, i) => ({ residue: compiled.units[u]!.name, linkage: t.linkage[i]! }));
+}
+
+function reportTree(s: SolvedHypothesis, clean: CleanSpectrum, compiled: CompiledRuleSet): SpectrumResult['tree'] {
+  const { graph, nodes } = s.graph;
+  const parent = s.tree.parent;
+  const ids = new Map<number, number>();
+  const outNodes: TreeNode[] = [];
+  const outEdges: TreeEdge[] = [];
+  for (let v = 0; v < graph.nodeCount; v++) {
+    if (parent[v]! < 0) continue;
+    const n = nodes[v]!;
+    ids.set(v, outNodes.length);
+    const observed = n.peak >= 0 ? clean.mz[n.peak]! : n.mz;
+    outNodes.push({
+      id: outNodes.length,
+      mz: round(observed, 5),
+      formula: countsString(n.counts, n.charge),
+      intensity: n.peak >= 0 ? round(clean.intensity[n.peak]!, 4) : 0,
+      ppm: round(n.peak >= 0 ? ((observed - n.mz) / n.mz) * 1e6 : 0, 2),
+    });
+  }
+  for (let v = 1; v < graph.nodeCount; v++) {
+    const p = parent[v]!;
+    if (p < 0) continue;
+    const loss = new Int32Array(NE);
+    for (let e = 0; e < NE; e++) loss[e] = nodes[p]!.counts[e]! - nodes[v]!.counts[e]!;
+    const reading = edgePrior(nodes[p]!, nodes[v]!, p === 0, compiled, compiled.rules.scoring);
+    let w = 0;
+    for (let k = graph.inStart[v]!; k < graph.inStart[v + 1]!; k++) if (graph.inFrom[k] === p) w = graph.inWeight[k]!;
+    outEdges.push({
+      from: ids.get(p)!,
+      to: ids.get(v)!,
+      loss: countsMass(loss) > 0 ? countsString(loss) : '',
+      ...(reading ? { lossName: lossName(reading, compiled) } : {}),
+      score: round(w, 3),
+    });
+  }
+  return { nodes: outNodes, edges: outEdges, score: round(s.tree.score, 3), solver: s.tree.exact ? 'exact' : 'heuristic' };
+}
+
+function lossName(r: NonNullable<ReturnType<typeof edgePrior>>, compiled: CompiledRuleSet): string {
+  if (!r.from || !r.to) return r.kind;
+  const parts: string[] = [];
+  r.to.removed.forEach((n, u) => {
+    const d = n - r.from!.removed[u]!;
+    if (d > 0) parts.push(d === 1 ? compiled.units[u]!.name : `${d}${compiled.units[u]!.name}`);
+  });
+  const cp = compiled.lossCombos[r.from.combo]!;
+  const cc = compiled.lossCombos[r.to.combo]!;
+  if (cc.size > cp.size) parts.push(cp.size === 0 ? cc.name : `(${cc.name})−(${cp.name})`);
+  if (r.to.radical > r.from.radical) parts.push('H•');
+  if (r.to.core !== r.from.core) parts.push('adduct');
+  return parts.join('+') || r.kind;
+}

@@ -1,0 +1,91 @@
+import type { FragGraph, TreeSolution } from './graph.js';
+
+/**
+ * Greedy heuristic (after Böcker & Rasche 2008; Rauf et al. 2013): repeatedly attach the node whose best edge
+ * from the current tree weighs most, skipping used colours, while that weight is positive; then try to insert
+ * left-out nodes whose positive children would pay for a negative edge. Fast, not proven optimal.
+ */
+export function solveGreedy(g: FragGraph): TreeSolution {
+  const n = g.nodeCount;
+  const parent = new Int32Array(n).fill(-1);
+  parent[0] = 0;
+  const used = new Uint8Array(g.colourCount);
+  used[g.colour[0]!] = 1;
+  let score = 0;
+  let steps = 0;
+  // best[v]: best edge weight into v from a node already in the tree; bestFrom[v] its parent.
+  const best = new Float64Array(n).fill(Number.NEGATIVE_INFINITY);
+  const bestFrom = new Int32Array(n).fill(-1);
+  // Children lists, to update best[] when a node joins.
+  const outStart = new Int32Array(n + 1);
+  for (let v = 0; v < n; v++) for (let k = g.inStart[v]!; k < g.inStart[v + 1]!; k++) outStart[g.inFrom[k]! + 1]!++;
+  for (let v = 0; v < n; v++) outStart[v + 1]! += outStart[v]!;
+  const fill = outStart.slice(0, n);
+  const outTo = new Int32Array(g.inFrom.length);
+  const outW = new Float64Array(g.inFrom.length);
+  for (let v = 0; v < n; v++) {
+    for (let k = g.inStart[v]!; k < g.inStart[v + 1]!; k++) {
+      const u = g.inFrom[k]!;
+      const j = fill[u]!++;
+      outTo[j] = v;
+      outW[j] = g.inWeight[k]!;
+    }
+  }
+  const join = (u: number) => {
+    for (let j = outStart[u]!; j < outStart[u + 1]!; j++) {
+      const v = outTo[j]!;
+      if (outW[j]! > best[v]!) {
+        best[v] = outW[j]!;
+        bestFrom[v] = u;
+      }
+    }
+  };
+  join(0);
+  for (;;) {
+    steps++;
+    let pick = -1;
+    let pickW = 0;
+    for (let v = 1; v < n; v++) {
+      if (parent[v]! >= 0 || used[g.colour[v]!]) continue;
+      if (best[v]! > pickW) {
+        pickW = best[v]!;
+        pick = v;
+      }
+    }
+    if (pick < 0) break;
+    parent[pick] = bestFrom[pick]!;
+    used[g.colour[pick]!] = 1;
+    score += pickW;
+    join(pick);
+  }
+  // Insertion pass: a left-out node with a negative best edge joins when its positive children outweigh it.
+  for (let v = 1; v < n; v++) {
+    if (parent[v]! >= 0 || used[g.colour[v]!] || bestFrom[v]! < 0) continue;
+    let gain = best[v]!;
+    const moves: number[] = [];
+    for (let j = outStart[v]!; j < outStart[v + 1]!; j++) {
+      const c = outTo[j]!;
+      if (parent[c]! < 0) continue;
+      const current = edgeWeight(g, parent[c]!, c);
+      if (outW[j]! > current) {
+        gain += outW[j]! - current;
+        moves.push(c, j);
+      }
+    }
+    steps++;
+    if (gain > 1e-12) {
+      parent[v] = bestFrom[v]!;
+      used[g.colour[v]!] = 1;
+      for (let m = 0; m < moves.length; m += 2) parent[moves[m]!] = v;
+      score += gain;
+    }
+  }
+  return { parent, score, exact: false, steps };
+}
+
+/** Weight of the best edge u→v (−∞ when none). */
+export function edgeWeight(g: FragGraph, u: number, v: number): number {
+  let w = Number.NEGATIVE_INFINITY;
+  for (let k = g.inStart[v]!; k < g.inStart[v + 1]!; k++) if (g.inFrom[k] === u && g.inWeight[k]! > w) w = g.inWeight[k]!;
+  return w;
+}
