@@ -7,12 +7,22 @@ import type { AppContext } from './context.js';
 import { ApiError, validationError } from './errors.js';
 import { WebhookInputSchema } from './schemas.js';
 
-const RULESET_TYPES = ['application/json', 'application/yaml', 'application/x-yaml', 'text/yaml', 'text/plain'];
+const RULESET_TYPES = [
+  'application/json',
+  'application/yaml',
+  'application/x-yaml',
+  'text/yaml',
+  'text/plain',
+];
 
 /** `residues[2].formula` → `/residues/2/formula`. */
 function pathToPointer(path: string): string {
   if (!path) return '';
-  return `/${path.replace(/\[(\d+)\]/g, '.$1').replace(/^\./, '').split('.').join('/')}`;
+  return `/${path
+    .replace(/\[(\d+)\]/g, '.$1')
+    .replace(/^\./, '')
+    .split('.')
+    .join('/')}`;
 }
 
 /** Rule-set routes: anyone may list them; uploading and activating need the admin role. */
@@ -28,7 +38,10 @@ export function ruleSetRoutes(ctx: AppContext): Router {
     express.text({ type: RULESET_TYPES, limit: ctx.limits.rulesetBody }),
     async (req, res) => {
       if (typeof req.body !== 'string' || req.body.length === 0) {
-        throw new ApiError('unsupported-media-type', `send the rule set as YAML or JSON (${RULESET_TYPES.join(', ')})`);
+        throw new ApiError(
+          'unsupported-media-type',
+          `send the rule set as YAML or JSON (${RULESET_TYPES.join(', ')})`,
+        );
       }
       const loaded = loadRuleSet(req.body);
       if (!loaded.value) {
@@ -47,12 +60,17 @@ export function ruleSetRoutes(ctx: AppContext): Router {
       res
         .status(201)
         .location(`/v1/rulesets/${sha}`)
-        .json({ ...summary, warnings: loaded.warnings.map((w) => ({ code: w.code, path: w.path, message: w.message })) });
+        .json({
+          ...summary,
+          warnings: loaded.warnings.map((w) => ({ code: w.code, path: w.path, message: w.message })),
+        });
     },
   );
 
   r.get('/rulesets/:sha256', async (req, res) => {
-    const rules = /^[0-9a-f]{64}$/.test(req.params.sha256) ? await ctx.store.getRuleSet(req.params.sha256) : null;
+    const rules = /^[0-9a-f]{64}$/.test(req.params.sha256)
+      ? await ctx.store.getRuleSet(req.params.sha256)
+      : null;
     if (!rules) throw new ApiError('not-found', `no stored rule set ${req.params.sha256}`);
     res.json(rules);
   });
@@ -78,7 +96,12 @@ export function webhookRoutes(ctx: AppContext): Router {
         errors: [{ pointer: '/url', detail: 'must start with https://' }],
       });
     }
-    const ep = await ctx.store.setWebhook(principal(req).clientId, body.data.url, newWebhookSecret, body.data.rotateSecret);
+    const ep = await ctx.store.setWebhook(
+      principal(req).clientId,
+      body.data.url,
+      newWebhookSecret,
+      body.data.rotateSecret,
+    );
     res.json(ep);
   });
   r.get('/webhook', async (req, res) => {

@@ -37,10 +37,15 @@ export function createApp(deps: AppDeps): Express {
       customAttributeKeys: { reqId: 'requestId' },
       // No headers in logs: they carry API keys.
       serializers: {
-        req: (req: { id: unknown; method: string; url: string }) => ({ id: req.id, method: req.method, url: req.url }),
+        req: (req: { id: unknown; method: string; url: string }) => ({
+          id: req.id,
+          method: req.method,
+          url: req.url,
+        }),
         res: (res: { statusCode: number }) => ({ statusCode: res.statusCode }),
       },
-      customLogLevel: (_req, res, err) => (err || res.statusCode >= 500 ? 'error' : res.statusCode >= 400 ? 'info' : 'debug'),
+      customLogLevel: (_req, res, err) =>
+        err || res.statusCode >= 500 ? 'error' : res.statusCode >= 400 ? 'info' : 'debug',
     }),
   );
   if (ctx.metrics) {

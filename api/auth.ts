@@ -56,7 +56,11 @@ export function authenticate(keys: readonly ApiKeyEntry[]) {
     const m = h ? /^Bearer\s+(\S{8,512})\s*$/i.exec(h) : null;
     const challenge = { 'WWW-Authenticate': 'Bearer realm="peel"' };
     if (!m) {
-      next(new ApiError('unauthorized', 'send an API key as "Authorization: Bearer <key>"', { headers: challenge }));
+      next(
+        new ApiError('unauthorized', 'send an API key as "Authorization: Bearer <key>"', {
+          headers: challenge,
+        }),
+      );
       return;
     }
     const principal = findClient(keys, m[1]!);

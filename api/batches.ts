@@ -91,14 +91,21 @@ async function idempotent(
   const keyId = sha256Hex(key);
   const existing = await ctx.store.claimIdempotencyKey(clientId, keyId, 600);
   if (existing?.state === 'in-flight') {
-    throw new ApiError('idempotency-key-in-flight', 'the first request with this key has not finished; retry later', {
-      headers: { 'Retry-After': '1' },
-    });
+    throw new ApiError(
+      'idempotency-key-in-flight',
+      'the first request with this key has not finished; retry later',
+      {
+        headers: { 'Retry-After': '1' },
+      },
+    );
   }
   if (existing?.state === 'done') {
     const fp = await fingerprintOnly();
     if (fp !== existing.fingerprint) {
-      throw new ApiError('idempotency-key-reused', 'this Idempotency-Key was used with a different request body');
+      throw new ApiError(
+        'idempotency-key-reused',
+        'this Idempotency-Key was used with a different request body',
+      );
     }
     send(existing, true);
     return;
@@ -113,7 +120,13 @@ async function idempotent(
   await ctx.store.completeIdempotencyKey(
     clientId,
     keyId,
-    { state: 'done', fingerprint: reply.fingerprint, status: reply.status, headers: reply.headers, body: reply.body },
+    {
+      state: 'done',
+      fingerprint: reply.fingerprint,
+      status: reply.status,
+      headers: reply.headers,
+      body: reply.body,
+    },
     ctx.limits.idempotencyTtlSeconds,
   );
   send(reply);
@@ -158,7 +171,10 @@ async function* jsonItems(spectra: unknown[]): AsyncGenerator<ReadItem> {
 }
 
 /** Batch options from the query string (raw uploads) merged under an `options` form field (multipart). */
-function uploadOptions(req: Request, optionsField: string | undefined): { options: BatchOptions; q: Record<string, unknown> } {
+function uploadOptions(
+  req: Request,
+  optionsField: string | undefined,
+): { options: BatchOptions; q: Record<string, unknown> } {
   const q = UploadQuerySchema.safeParse(req.query);
   if (!q.success) throw validationError(q.error, 'invalid query parameters', ['query']);
   const fromQuery: Record<string, unknown> = {
@@ -232,7 +248,11 @@ export function batchRoutes(ctx: AppContext): Router {
           if (!env.success) throw validationError(env.error, 'the batch body is not valid');
           const { spectra, ...options } = env.data;
           const ruleset = await resolveRuleSet(ctx.store, options.ruleset);
-          const b = await ingestBatch(ingestDeps, { clientId, options, source: { kind: 'json' }, items: jsonItems(spectra) }, ruleset);
+          const b = await ingestBatch(
+            ingestDeps,
+            { clientId, options, source: { kind: 'json' }, items: jsonItems(spectra) },
+            ruleset,
+          );
           return accepted(b, fingerprint);
         },
         async () => fingerprint,
@@ -293,7 +313,9 @@ export function batchRoutes(ctx: AppContext): Router {
     const q = ListQuerySchema.safeParse(req.query);
     if (!q.success) throw validationError(q.error, 'invalid query parameters', ['query']);
     const { ids, next } = await ctx.store.listBatches(principal(req).clientId, q.data.limit, q.data.before);
-    const batches = (await Promise.all(ids.map((id) => ctx.store.getBatch(id)))).filter((b): b is BatchRecord => !!b);
+    const batches = (await Promise.all(ids.map((id) => ctx.store.getBatch(id)))).filter(
+      (b): b is BatchRecord => !!b,
+    );
     res.json({ batches: batches.map(batchView), next });
   });
 
@@ -319,7 +341,10 @@ export function batchRoutes(ctx: AppContext): Router {
           b.id,
           items.map((i) => ({
             index: i.index,
-            result: { ...errorResult(i.id, 'cancelled', 'the batch was cancelled before this spectrum was scored'), index: i.index },
+            result: {
+              ...errorResult(i.id, 'cancelled', 'the batch was cancelled before this spectrum was scored'),
+              index: i.index,
+            },
           })),
         );
       }
@@ -332,7 +357,11 @@ export function batchRoutes(ctx: AppContext): Router {
     const b = await ownBatch(ctx, req, req.params.id);
     const q = IssuesQuerySchema.safeParse(req.query);
     if (!q.success) throw validationError(q.error, 'invalid query parameters', ['query']);
-    res.json({ batch: b.id, readIssues: b.readIssues, issues: await ctx.store.listIssues(b.id, q.data.offset, q.data.limit) });
+    res.json({
+      batch: b.id,
+      readIssues: b.readIssues,
+      issues: await ctx.store.listIssues(b.id, q.data.offset, q.data.limit),
+    });
   });
 
   r.get('/batches/:id/webhook-deliveries', async (req, res) => {
@@ -350,7 +379,7 @@ export function batchRoutes(ctx: AppContext): Router {
     const options: BatchOptions = {
       ...src.options,
       ...(body.data.tolerance ? { tolerance: body.data.tolerance } : {}),
-      ...(body.data.metadata ?? src.metadata ? { metadata: body.data.metadata ?? src.metadata } : {}),
+      ...((body.data.metadata ?? src.metadata) ? { metadata: body.data.metadata ?? src.metadata } : {}),
     };
     const b = await reprocess(ctx, src, options, ruleset, ingestDeps);
     res.status(202).location(`/v1/batches/${b.id}`).json(batchView(b));
@@ -377,7 +406,9 @@ async function reprocess(
         if (s) yield { kind: 'spectrum', index: it.index, spectrum: { ...s, id: it.id }, warnings: [] };
         else {
           const prev = (await ctx.store.getResultsRaw(src.id, it.index, 1))[0];
-          const reason = prev ? (JSON.parse(prev).reason as { code: string; message: string } | undefined) : undefined;
+          const reason = prev
+            ? (JSON.parse(prev).reason as { code: string; message: string } | undefined)
+            : undefined;
           yield {
             kind: 'error',
             index: it.index,
@@ -393,13 +424,19 @@ async function reprocess(
       }
     }
   }
-  return ingestBatch(deps, { clientId: src.clientId, options, source: { kind: 'reprocess' }, items: items(), reprocessOf: src.id }, ruleset);
+  return ingestBatch(
+    deps,
+    { clientId: src.clientId, options, source: { kind: 'reprocess' }, items: items(), reprocessOf: src.id },
+    ruleset,
+  );
 }
 
 type Format = 'mgf' | 'mzml' | 'json';
 
 /** Reads the first chunk to learn the input's format (for the batch's record) and gives the stream back whole. */
-async function sniffStream(stream: Readable): Promise<{ format: Format | undefined; chunks: AsyncIterable<Buffer> }> {
+async function sniffStream(
+  stream: Readable,
+): Promise<{ format: Format | undefined; chunks: AsyncIterable<Buffer> }> {
   const it = stream[Symbol.asyncIterator]() as AsyncIterator<Buffer>;
   const first = await it.next();
   const head = first.done ? undefined : first.value;

@@ -8,7 +8,8 @@ const bool = (fallback: boolean) =>
     .default(fallback ? 'true' : 'false')
     .transform((v) => v === 'true' || v === '1' || v === 'yes');
 
-const int = (fallback: number, min: number, max: number) => z.coerce.number().int().min(min).max(max).default(fallback);
+const int = (fallback: number, min: number, max: number) =>
+  z.coerce.number().int().min(min).max(max).default(fallback);
 
 /** Size with an optional unit: `512kb`, `64mb`, `1gb`, or plain bytes. */
 const byteSize = (fallback: string) =>
@@ -28,7 +29,10 @@ const byteSize = (fallback: string) =>
 /** One API key entry: `client:role:sha256hex` (the key itself is never configured, only its hash). */
 const ApiKeyEntry = z
   .string()
-  .regex(/^[A-Za-z0-9_.-]{1,64}:(client|admin):[0-9a-f]{64}$/, 'client:role:sha256hex with role client or admin')
+  .regex(
+    /^[A-Za-z0-9_.-]{1,64}:(client|admin):[0-9a-f]{64}$/,
+    'client:role:sha256hex with role client or admin',
+  )
   .transform((s) => {
     const [clientId, role, hash] = s.split(':') as [string, 'client' | 'admin', string];
     return { clientId, role, hash };
@@ -56,7 +60,12 @@ export const ConfigSchema = z.object({
   API_KEYS: z
     .string()
     .default('')
-    .transform((s) => s.split(',').map((x) => x.trim()).filter(Boolean))
+    .transform((s) =>
+      s
+        .split(',')
+        .map((x) => x.trim())
+        .filter(Boolean),
+    )
     .pipe(z.array(ApiKeyEntry)),
   /** Rule-set file registered (and activated if none is active) at start-up. @defaultValue the bundled default */
   RULESET_PATH: z.string().min(1).optional(),

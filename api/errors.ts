@@ -65,10 +65,18 @@ export function jsonPointer(path: ReadonlyArray<PropertyKey>): string {
 
 /** Field problems from zod issues, under a base pointer (e.g. `/spectra/3`). */
 export function zodProblems(error: z.ZodError, base: ReadonlyArray<PropertyKey> = []): FieldProblem[] {
-  return error.issues.map((i) => ({ pointer: jsonPointer([...base, ...i.path]), detail: i.message, code: i.code }));
+  return error.issues.map((i) => ({
+    pointer: jsonPointer([...base, ...i.path]),
+    detail: i.message,
+    code: i.code,
+  }));
 }
 
 /** A 422 from a zod error. */
-export function validationError(error: z.ZodError, detail: string, base: ReadonlyArray<PropertyKey> = []): ApiError {
+export function validationError(
+  error: z.ZodError,
+  detail: string,
+  base: ReadonlyArray<PropertyKey> = [],
+): ApiError {
   return new ApiError('validation-failed', detail, { errors: zodProblems(error, base) });
 }

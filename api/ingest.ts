@@ -50,7 +50,11 @@ const FLUSH = 500;
  * batch is dropped and a 422 problem lists the first read errors; if the input fails midway (the client
  * hung up, the body was too large) the partial batch is dropped and the error passed on.
  */
-export async function ingestBatch(deps: IngestDeps, req: IngestRequest, ruleset: RuleSetRef): Promise<BatchRecord> {
+export async function ingestBatch(
+  deps: IngestDeps,
+  req: IngestRequest,
+  ruleset: RuleSetRef,
+): Promise<BatchRecord> {
   const { store } = deps;
   const { ruleset: _r, metadata, ...scoring } = req.options;
   const batch = await store.createBatch({
@@ -66,21 +70,39 @@ export async function ingestBatch(deps: IngestDeps, req: IngestRequest, ruleset:
   const firstErrors: ReadIssueRecord[] = [];
   let entries: Parameters<Store['appendItems']>[1] = [];
   let issues: ReadIssueRecord[] = [];
+  // Chunks are queued as soon as their spectra are stored, so scoring overlaps a long upload.
+  let queued = 0;
+  const enqueueReady = async (all: boolean) => {
+    const upTo = all ? n : n - (n % deps.chunkSize);
+    if (upTo > queued) {
+      await enqueueChunks(deps, batch.id, queued, upTo);
+      queued = upTo;
+    }
+  };
   const flush = async () => {
     await store.appendItems(batch.id, entries);
     await store.addIssues(batch.id, issues);
     entries = [];
     issues = [];
+    await enqueueReady(false);
   };
   try {
     for await (const item of req.items) {
       if (n >= deps.maxSpectra) {
-        throw new ApiError('payload-too-large', `a batch holds at most ${deps.maxSpectra} spectra; split the input`);
+        throw new ApiError(
+          'payload-too-large',
+          `a batch holds at most ${deps.maxSpectra} spectra; split the input`,
+        );
       }
       const index = n++;
       if (item.kind === 'spectrum') {
         good++;
-        entries.push({ index, id: item.spectrum.id, hash: spectrumHash(item.spectrum), spectrum: item.spectrum });
+        entries.push({
+          index,
+          id: item.spectrum.id,
+          hash: spectrumHash(item.spectrum),
+          spectrum: item.spectrum,
+        });
         for (const w of item.warnings) issues.push(issueRecord(w, index));
       } else {
         const id = item.id ?? item.issue.position.id ?? `#${index}`;
@@ -105,7 +127,7 @@ export async function ingestBatch(deps: IngestDeps, req: IngestRequest, ruleset:
     );
   }
   try {
-    await enqueueChunks(deps, batch.id, n);
+    await enqueueReady(true);
   } catch (err) {
     await store.failReception(batch.id).catch(() => {});
     throw err;
@@ -116,11 +138,20 @@ export async function ingestBatch(deps: IngestDeps, req: IngestRequest, ruleset:
   return (await store.getBatch(batch.id))!;
 }
 
-/** Queues the scoring jobs of a batch of `total` spectra, one per chunk, with ids derived from the batch. */
-export async function enqueueChunks(deps: Pick<IngestDeps, 'scoreQueue' | 'chunkSize'>, batchId: string, total: number) {
+/**
+ * Queues the scoring jobs of spectra `from..to-1` of a batch, one per chunk (`from` is a multiple of the
+ * chunk size), with job ids derived from the batch and chunk number.
+ */
+export async function enqueueChunks(
+  deps: Pick<IngestDeps, 'scoreQueue' | 'chunkSize'>,
+  batchId: string,
+  from: number,
+  to: number,
+) {
   const jobs: Array<{ name: string; data: ScoreJobData; opts: { jobId: string } }> = [];
-  for (let start = 0, k = 0; start < total; start += deps.chunkSize, k++) {
-    const end = Math.min(total, start + deps.chunkSize) - 1;
+  for (let start = from; start < to; start += deps.chunkSize) {
+    const end = Math.min(to, start + deps.chunkSize) - 1;
+    const k = Math.floor(start / deps.chunkSize);
     jobs.push({ name: 'chunk', data: { batchId, start, end }, opts: { jobId: chunkJobId(batchId, k) } });
   }
   for (let i = 0; i < jobs.length; i += 1000) await deps.scoreQueue.addBulk(jobs.slice(i, i + 1000));

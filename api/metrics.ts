@@ -22,7 +22,15 @@ export interface Metrics {
   watchQueue(queue: CountableQueue): void;
 }
 
-const QUEUE_STATES = ['waiting', 'active', 'delayed', 'completed', 'failed', 'prioritized', 'waiting-children'];
+const QUEUE_STATES = [
+  'waiting',
+  'active',
+  'delayed',
+  'completed',
+  'failed',
+  'prioritized',
+  'waiting-children',
+];
 
 /** Creates the metrics on a fresh registry (with Node's default process metrics under `peel_`). */
 export function createMetrics(): Metrics {

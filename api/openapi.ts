@@ -2,7 +2,12 @@ import { z } from 'zod';
 import { ResultsDocumentSchema, SpectrumResultSchema } from '../engine/report/result.js';
 import { RuleSetSchema } from '../engine/rules/schema.js';
 import { SpectrumSchema } from '../engine/spectrum/spectrum.js';
-import { BatchOptionsSchema, BatchStatusSchema, DeliveryRecordSchema, ReadIssueRecordSchema } from '../store/schemas.js';
+import {
+  BatchOptionsSchema,
+  BatchStatusSchema,
+  DeliveryRecordSchema,
+  ReadIssueRecordSchema,
+} from '../store/schemas.js';
 import {
   BatchListSchema,
   ChangeReportSchema,
@@ -40,28 +45,54 @@ const COMPONENTS: Record<string, [z.ZodType, 'input' | 'output']> = {
 
 const ref = (name: keyof typeof COMPONENTS) => ({ $ref: `#/components/schemas/${name}` });
 const json = (name: keyof typeof COMPONENTS) => ({ 'application/json': { schema: ref(name) } });
-const problem = (description: string) => ({ description, content: { 'application/problem+json': { schema: ref('Problem') } } });
+const problem = (description: string) => ({
+  description,
+  content: { 'application/problem+json': { schema: ref('Problem') } },
+});
 
 const ERRORS = {
   '401': problem('Missing or invalid API key'),
   '429': problem('Rate limit exceeded'),
   '503': problem('Redis unreachable'),
 };
-const batchId = { name: 'id', in: 'path', required: true, schema: { type: 'string' }, description: 'Batch id' };
-const q = (name: string, schema: object, description: string) => ({ name, in: 'query', required: false, schema, description });
+const batchId = {
+  name: 'id',
+  in: 'path',
+  required: true,
+  schema: { type: 'string' },
+  description: 'Batch id',
+};
+const q = (name: string, schema: object, description: string) => ({
+  name,
+  in: 'query',
+  required: false,
+  schema,
+  description,
+});
 
 /** Builds the OpenAPI 3.1 document of the API. */
 export function openApiDocument(version: string): Record<string, unknown> {
   const schemas: Record<string, unknown> = {};
   for (const [name, [schema, io]] of Object.entries(COMPONENTS)) {
-    const s = z.toJSONSchema(schema, { target: 'draft-2020-12', io, unrepresentable: 'any' }) as Record<string, unknown>;
+    const s = z.toJSONSchema(schema, { target: 'draft-2020-12', io, unrepresentable: 'any' }) as Record<
+      string,
+      unknown
+    >;
     delete s.$schema;
     schemas[name] = s;
   }
   const uploadOptions = [
-    q('format', { type: 'string', enum: ['mgf', 'mzml', 'json'] }, 'Input format (else from the file name or content)'),
+    q(
+      'format',
+      { type: 'string', enum: ['mgf', 'mzml', 'json'] },
+      'Input format (else from the file name or content)',
+    ),
     q('filename', { type: 'string' }, 'File name recorded with the batch'),
-    q('ruleset', { type: 'string', pattern: '^[0-9a-f]{64}$' }, 'sha256 of a stored rule set (else the active one)'),
+    q(
+      'ruleset',
+      { type: 'string', pattern: '^[0-9a-f]{64}$' },
+      'sha256 of a stored rule set (else the active one)',
+    ),
     q('fragmentPpm', { type: 'number' }, 'Fragment tolerance, ppm'),
     q('precursorPpm', { type: 'number' }, 'Precursor tolerance, ppm'),
     q('instrument', { type: 'string' }, 'Instrument name kept with the batch'),
@@ -95,7 +126,8 @@ export function openApiDocument(version: string): Record<string, unknown> {
               in: 'header',
               required: false,
               schema: { type: 'string', maxLength: 255 },
-              description: 'Same key + same body replays the first response; other body → 422; still running → 409',
+              description:
+                'Same key + same body replays the first response; other body → 422; still running → 409',
             },
             ...uploadOptions,
           ],
@@ -108,14 +140,19 @@ export function openApiDocument(version: string): Record<string, unknown> {
                   type: 'object',
                   required: ['file'],
                   properties: {
-                    options: { type: 'string', description: 'BatchOptions as JSON; must come before the file part' },
+                    options: {
+                      type: 'string',
+                      description: 'BatchOptions as JSON; must come before the file part',
+                    },
                     file: { type: 'string', contentMediaType: 'application/octet-stream' },
                   },
                 },
               },
               'application/x-mgf': { schema: { type: 'string' } },
               'application/mzml+xml': { schema: { type: 'string' } },
-              'application/octet-stream': { schema: { type: 'string', contentMediaType: 'application/octet-stream' } },
+              'application/octet-stream': {
+                schema: { type: 'string', contentMediaType: 'application/octet-stream' },
+              },
             },
           },
           responses: {
@@ -139,7 +176,11 @@ export function openApiDocument(version: string): Record<string, unknown> {
             q('limit', { type: 'integer', minimum: 1, maximum: 200, default: 50 }, 'Page size'),
             q('before', { type: 'string' }, 'The `next` of the previous page'),
           ],
-          responses: { '200': { description: 'A page', content: json('BatchList') }, '422': problem('Bad query'), ...ERRORS },
+          responses: {
+            '200': { description: 'A page', content: json('BatchList') },
+            '422': problem('Bad query'),
+            ...ERRORS,
+          },
         },
       },
       '/v1/batches/{id}': {
@@ -147,7 +188,11 @@ export function openApiDocument(version: string): Record<string, unknown> {
           operationId: 'getBatch',
           summary: 'Batch status, counts per state and progress',
           parameters: [batchId],
-          responses: { '200': { description: 'Status', content: json('BatchStatus') }, '404': problem('No such batch'), ...ERRORS },
+          responses: {
+            '200': { description: 'Status', content: json('BatchStatus') },
+            '404': problem('No such batch'),
+            ...ERRORS,
+          },
         },
       },
       '/v1/batches/{id}/cancel': {
@@ -170,8 +215,16 @@ export function openApiDocument(version: string): Record<string, unknown> {
           parameters: [
             batchId,
             q('format', { type: 'string', enum: ['json', 'ndjson', 'csv', 'mztab'] }, 'Overrides Accept'),
-            q('status', { type: 'string' }, 'Comma-separated statuses to keep (annotated, unassigned, error)'),
-            q('maxConfidenceLevel', { type: 'integer', minimum: 1, maximum: 5 }, 'Best candidate at this level or better'),
+            q(
+              'status',
+              { type: 'string' },
+              'Comma-separated statuses to keep (annotated, unassigned, error)',
+            ),
+            q(
+              'maxConfidenceLevel',
+              { type: 'integer', minimum: 1, maximum: 5 },
+              'Best candidate at this level or better',
+            ),
             q('cursor', { type: 'integer', minimum: 0 }, 'Index to start from'),
             q('limit', { type: 'integer', minimum: 1, maximum: 5000 }, 'Page size (JSON: adds `page.next`)'),
           ],
@@ -195,7 +248,10 @@ export function openApiDocument(version: string): Record<string, unknown> {
         get: {
           operationId: 'getSpectrumResult',
           summary: "One spectrum's result with its fragmentation tree",
-          parameters: [batchId, { name: 'index', in: 'path', required: true, schema: { type: 'integer', minimum: 0 } }],
+          parameters: [
+            batchId,
+            { name: 'index', in: 'path', required: true, schema: { type: 'integer', minimum: 0 } },
+          ],
           responses: {
             '200': { description: 'Result', content: json('SpectrumResult') },
             '404': problem('No such batch, index, or not scored yet'),
@@ -207,7 +263,11 @@ export function openApiDocument(version: string): Record<string, unknown> {
         get: {
           operationId: 'getReadIssues',
           summary: 'Problems met while reading the input (errors and warnings, with positions)',
-          parameters: [batchId, q('offset', { type: 'integer', minimum: 0 }, 'Skip'), q('limit', { type: 'integer' }, 'Count')],
+          parameters: [
+            batchId,
+            q('offset', { type: 'integer', minimum: 0 }, 'Skip'),
+            q('limit', { type: 'integer' }, 'Count'),
+          ],
           responses: {
             '200': {
               description: 'Issues',
@@ -215,7 +275,10 @@ export function openApiDocument(version: string): Record<string, unknown> {
                 'application/json': {
                   schema: {
                     type: 'object',
-                    properties: { batch: { type: 'string' }, issues: { type: 'array', items: ref('ReadIssue') } },
+                    properties: {
+                      batch: { type: 'string' },
+                      issues: { type: 'array', items: ref('ReadIssue') },
+                    },
                   },
                 },
               },
@@ -237,7 +300,10 @@ export function openApiDocument(version: string): Record<string, unknown> {
                 'application/json': {
                   schema: {
                     type: 'object',
-                    properties: { batch: { type: 'string' }, deliveries: { type: 'array', items: ref('WebhookDelivery') } },
+                    properties: {
+                      batch: { type: 'string' },
+                      deliveries: { type: 'array', items: ref('WebhookDelivery') },
+                    },
                   },
                 },
               },
@@ -267,7 +333,11 @@ export function openApiDocument(version: string): Record<string, unknown> {
           operationId: 'getChanges',
           summary: 'What changed between a reprocessed batch and its original',
           parameters: [batchId],
-          responses: { '200': { description: 'Changes', content: json('ChangeReport') }, '404': problem('No such batch'), ...ERRORS },
+          responses: {
+            '200': { description: 'Changes', content: json('ChangeReport') },
+            '404': problem('No such batch'),
+            ...ERRORS,
+          },
         },
       },
       '/v1/webhook': {
@@ -275,12 +345,20 @@ export function openApiDocument(version: string): Record<string, unknown> {
           operationId: 'setWebhook',
           summary: "Register the caller's webhook endpoint (returns the signing secret)",
           requestBody: { required: true, content: json('WebhookInput') },
-          responses: { '200': { description: 'Endpoint', content: json('WebhookEndpoint') }, '422': problem('Bad URL'), ...ERRORS },
+          responses: {
+            '200': { description: 'Endpoint', content: json('WebhookEndpoint') },
+            '422': problem('Bad URL'),
+            ...ERRORS,
+          },
         },
         get: {
           operationId: 'getWebhook',
           summary: "The caller's webhook endpoint",
-          responses: { '200': { description: 'Endpoint', content: json('WebhookEndpoint') }, '404': problem('None'), ...ERRORS },
+          responses: {
+            '200': { description: 'Endpoint', content: json('WebhookEndpoint') },
+            '404': problem('None'),
+            ...ERRORS,
+          },
         },
         delete: {
           operationId: 'deleteWebhook',
@@ -300,7 +378,10 @@ export function openApiDocument(version: string): Record<string, unknown> {
           parameters: [q('activate', { type: 'boolean' }, 'Activate at once')],
           requestBody: {
             required: true,
-            content: { 'application/json': { schema: ref('RuleSet') }, 'application/yaml': { schema: { type: 'string' } } },
+            content: {
+              'application/json': { schema: ref('RuleSet') },
+              'application/yaml': { schema: { type: 'string' } },
+            },
           },
           responses: {
             '201': { description: 'Stored', content: json('RuleSetSummary') },
@@ -316,7 +397,11 @@ export function openApiDocument(version: string): Record<string, unknown> {
           operationId: 'getRuleSet',
           summary: 'A stored rule set',
           parameters: [{ name: 'sha256', in: 'path', required: true, schema: { type: 'string' } }],
-          responses: { '200': { description: 'Rule set', content: json('RuleSet') }, '404': problem('None'), ...ERRORS },
+          responses: {
+            '200': { description: 'Rule set', content: json('RuleSet') },
+            '404': problem('None'),
+            ...ERRORS,
+          },
         },
       },
       '/v1/rulesets/{sha256}/activate': {
@@ -333,7 +418,12 @@ export function openApiDocument(version: string): Record<string, unknown> {
         },
       },
       '/livez': {
-        get: { operationId: 'livez', security: [], summary: 'Process is alive', responses: { '200': { description: 'OK' } } },
+        get: {
+          operationId: 'livez',
+          security: [],
+          summary: 'Process is alive',
+          responses: { '200': { description: 'OK' } },
+        },
       },
       '/readyz': {
         get: {
@@ -348,7 +438,12 @@ export function openApiDocument(version: string): Record<string, unknown> {
           operationId: 'metrics',
           security: [],
           summary: 'Prometheus metrics',
-          responses: { '200': { description: 'Text exposition format', content: { 'text/plain': { schema: { type: 'string' } } } } },
+          responses: {
+            '200': {
+              description: 'Text exposition format',
+              content: { 'text/plain': { schema: { type: 'string' } } },
+            },
+          },
         },
       },
       '/openapi.json': {
@@ -356,7 +451,12 @@ export function openApiDocument(version: string): Record<string, unknown> {
           operationId: 'openapi',
           security: [],
           summary: 'This document',
-          responses: { '200': { description: 'OpenAPI 3.1', content: { 'application/json': { schema: { type: 'object' } } } } },
+          responses: {
+            '200': {
+              description: 'OpenAPI 3.1',
+              content: { 'application/json': { schema: { type: 'object' } } },
+            },
+          },
         },
       },
     },

@@ -23,7 +23,12 @@ export function problemType(code: ProblemCode): string {
 }
 
 /** Builds problem details for a code. */
-export function problem(req: Request, code: ProblemCode, detail: string, errors?: FieldProblem[]): ProblemDetails {
+export function problem(
+  req: Request,
+  code: ProblemCode,
+  detail: string,
+  errors?: FieldProblem[],
+): ProblemDetails {
   const [status, title] = PROBLEMS[code];
   return {
     type: problemType(code),
@@ -38,7 +43,13 @@ export function problem(req: Request, code: ProblemCode, detail: string, errors?
 }
 
 /** Sends problem details. */
-export function sendProblem(req: Request, res: Response, code: ProblemCode, detail: string, errors?: FieldProblem[]): void {
+export function sendProblem(
+  req: Request,
+  res: Response,
+  code: ProblemCode,
+  detail: string,
+  errors?: FieldProblem[],
+): void {
   const body = problem(req, code, detail, errors);
   res.status(body.status).type(PROBLEM_JSON).send(JSON.stringify(body));
 }
@@ -63,7 +74,8 @@ function classify(err: unknown): ApiError | null {
   if (
     e.name === 'MaxRetriesPerRequestError' ||
     e.code === 'store-unavailable' ||
-    (typeof e.message === 'string' && /Stream isn't writeable|Connection is closed|ECONNREFUSED/.test(e.message))
+    (typeof e.message === 'string' &&
+      /Stream isn't writeable|Connection is closed|ECONNREFUSED/.test(e.message))
   ) {
     return new ApiError('store-unavailable', 'the queue and store (Redis) cannot be reached; retry later');
   }

@@ -25,7 +25,10 @@ export class RedisRateStore implements RateStore {
     this.windowMs = options.windowMs;
   }
   async increment(key: string): Promise<IncrementResponse> {
-    const [hits, ttl] = (await this.redis.eval(INCREMENT, 1, this.keys.rateLimit(key), this.windowMs)) as [number, number];
+    const [hits, ttl] = (await this.redis.eval(INCREMENT, 1, this.keys.rateLimit(key), this.windowMs)) as [
+      number,
+      number,
+    ];
     return { totalHits: hits, resetTime: new Date(Date.now() + ttl) };
   }
   async decrement(key: string): Promise<void> {
@@ -47,6 +50,7 @@ export function clientRateLimit(redis: Redis, keys: RedisKeys, perMinute: number
     keyGenerator: (req: Request) => req.principal?.clientId ?? 'anonymous',
     // Redis down: let the request through; the route itself answers 503 if it needs Redis.
     passOnStoreError: true,
-    handler: (req, res) => sendProblem(req, res, 'rate-limited', `at most ${perMinute} requests per minute per client`),
+    handler: (req, res) =>
+      sendProblem(req, res, 'rate-limited', `at most ${perMinute} requests per minute per client`),
   });
 }

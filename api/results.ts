@@ -30,7 +30,10 @@ function chooseFormat(req: Request, explicit: Format | undefined): Format {
   if (!req.get('accept')) return 'json';
   const m = req.accepts(MEDIA.map(([t]) => t));
   if (!m) {
-    throw new ApiError('not-acceptable', `results are available as ${MEDIA.map(([t]) => t).join(', ')} (or ?format=)`);
+    throw new ApiError(
+      'not-acceptable',
+      `results are available as ${MEDIA.map(([t]) => t).join(', ')} (or ?format=)`,
+    );
   }
   return MEDIA.find(([t]) => t === m)![1];
 }
@@ -97,7 +100,9 @@ function writerFor(format: Format, res: Response, b: BatchRecord): ResultsWriter
         mzTabId: `peel-${b.id}`,
         msRuns: [
           {
-            ...(b.source.kind === 'mgf' || b.source.kind === 'mzml' || b.source.kind === 'json' ? { format: b.source.kind } : {}),
+            ...(b.source.kind === 'mgf' || b.source.kind === 'mzml' || b.source.kind === 'json'
+              ? { format: b.source.kind }
+              : {}),
             ...(b.source.filename ? { name: b.source.filename } : {}),
           },
         ],
@@ -120,13 +125,17 @@ export function resultRoutes(ctx: AppContext): Router {
     };
     const state = { next: null as number | null };
     res.set('Peel-Batch-State', b.state);
-    res.set('Cache-Control', b.state === 'completed' || b.state === 'failed' ? 'private, max-age=3600' : 'no-store');
+    res.set(
+      'Cache-Control',
+      b.state === 'completed' || b.state === 'failed' ? 'private, max-age=3600' : 'no-store',
+    );
 
     if (format === 'json' && q.data.limit !== undefined) {
       // A page: small enough to build whole, with the cursor of the next page.
       const spectra: SpectrumResult[] = [];
       for await (const x of readResults(ctx, b, q.data.cursor, q.data.limit, filter, state)) spectra.push(x);
-      if (state.next !== null) res.set('Link', `</v1/batches/${b.id}/results?${nextQuery(req, state.next)}>; rel="next"`);
+      if (state.next !== null)
+        res.set('Link', `</v1/batches/${b.id}/results?${nextQuery(req, state.next)}>; rel="next"`);
       res.json({
         ruleset: b.ruleset,
         disclaimer: DISCLAIMER,
@@ -138,14 +147,16 @@ export function resultRoutes(ctx: AppContext): Router {
     }
 
     const writer = writerFor(format, res, b);
-    res.status(200).type(writer.contentType);
+    // attachment() sets a type from the file name: set the writer's type after it.
     if (format === 'csv') res.attachment(`${b.id}.csv`);
     if (format === 'mztab') res.attachment(`${b.id}.mztab`);
+    res.status(200).type(writer.contentType);
     let begun = false;
     try {
       await writer.begin(b.ruleset);
       begun = true;
-      for await (const x of readResults(ctx, b, q.data.cursor, q.data.limit, filter, state)) await writer.write(x);
+      for await (const x of readResults(ctx, b, q.data.cursor, q.data.limit, filter, state))
+        await writer.write(x);
       await writer.end();
       res.end();
     } catch (err) {
@@ -160,7 +171,10 @@ export function resultRoutes(ctx: AppContext): Router {
     const b = await ownBatch(ctx, req, req.params.id);
     const index = Number(req.params.index);
     if (!Number.isInteger(index) || index < 0 || index >= b.total) {
-      throw new ApiError('not-found', `batch ${b.id} has no spectrum at index ${req.params.index} (0..${b.total - 1})`);
+      throw new ApiError(
+        'not-found',
+        `batch ${b.id} has no spectrum at index ${req.params.index} (0..${b.total - 1})`,
+      );
     }
     const raw = (await ctx.store.getResultsRaw(b.id, index, 1))[0];
     if (!raw) throw new ApiError('not-found', `spectrum ${index} of batch ${b.id} has not been scored yet`);
@@ -169,7 +183,8 @@ export function resultRoutes(ctx: AppContext): Router {
 
   r.get('/batches/:id/changes', async (req, res) => {
     const b = await ownBatch(ctx, req, req.params.id);
-    if (!b.reprocessOf) throw new ApiError('not-found', `batch ${b.id} is not a reprocessing of another batch`);
+    if (!b.reprocessOf)
+      throw new ApiError('not-found', `batch ${b.id} is not a reprocessing of another batch`);
     const src = await ctx.store.getBatch(b.reprocessOf);
     if (!src) throw new ApiError('not-found', `the original batch ${b.reprocessOf} is gone`);
     const changes = [];
@@ -183,7 +198,12 @@ export function resultRoutes(ctx: AppContext): Router {
         const a = summary(after[k] ?? null);
         const o = summary(before[k] ?? null);
         if (a.status !== o.status || a.best !== o.best || a.confidenceLevel !== o.confidenceLevel) {
-          changes.push({ index: start + k, id: a.id ?? o.id ?? `#${start + k}`, before: o.view, after: a.view });
+          changes.push({
+            index: start + k,
+            id: a.id ?? o.id ?? `#${start + k}`,
+            before: o.view,
+            after: a.view,
+          });
         }
       }
     }

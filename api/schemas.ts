@@ -42,7 +42,10 @@ export const ResultsQuerySchema = z.object({
   /** Comma-separated statuses to keep. */
   status: z
     .string()
-    .regex(/^(annotated|unassigned|error)(,(annotated|unassigned|error))*$/, 'comma-separated annotated, unassigned, error')
+    .regex(
+      /^(annotated|unassigned|error)(,(annotated|unassigned|error))*$/,
+      'comma-separated annotated, unassigned, error',
+    )
     .optional(),
   /** Keep spectra whose best candidate has this confidence level or better (1 is best). */
   maxConfidenceLevel: z.coerce.number().int().min(1).max(5).optional(),
@@ -81,10 +84,16 @@ export const WebhookEndpointSchema = z.object({
 });
 
 /** A stored rule set's summary. */
-export const RuleSetSummarySchema = RuleSetRefSchema.extend({ storedAt: z.string(), description: z.string().optional() });
+export const RuleSetSummarySchema = RuleSetRefSchema.extend({
+  storedAt: z.string(),
+  description: z.string().optional(),
+});
 
 /** The list of stored rule sets. */
-export const RuleSetListSchema = z.object({ active: z.string().nullable(), rulesets: z.array(RuleSetSummarySchema) });
+export const RuleSetListSchema = z.object({
+  active: z.string().nullable(),
+  rulesets: z.array(RuleSetSummarySchema),
+});
 
 /** Reprocessing a batch with another rule set (admin). */
 export const ReprocessSchema = z
@@ -107,8 +116,16 @@ export const ChangeReportSchema = z.object({
     z.object({
       index: z.number().int(),
       id: z.string(),
-      before: z.object({ status: z.string(), best: z.string().nullable(), confidenceLevel: z.number().nullable() }),
-      after: z.object({ status: z.string(), best: z.string().nullable(), confidenceLevel: z.number().nullable() }),
+      before: z.object({
+        status: z.string(),
+        best: z.string().nullable(),
+        confidenceLevel: z.number().nullable(),
+      }),
+      after: z.object({
+        status: z.string(),
+        best: z.string().nullable(),
+        confidenceLevel: z.number().nullable(),
+      }),
     }),
   ),
 });

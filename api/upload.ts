@@ -118,7 +118,9 @@ export function receiveMultipart(req: Request, limit: number, salt: string): Pro
           out.once('drain', () => file.resume());
         }
       });
-      file.on('limit', () => out.destroy(new ApiError('payload-too-large', `the file is larger than ${limit} bytes`)));
+      file.on('limit', () =>
+        out.destroy(new ApiError('payload-too-large', `the file is larger than ${limit} bytes`)),
+      );
       file.on('end', () => out.end());
       file.on('error', (err: Error) => out.destroy(err));
       let digest: string | undefined;

@@ -3,13 +3,12 @@
 //                                                  [--json] [--peaks]
 //   npm run -s build && node dist/bench/gen-sim.js --demo [--out demo/data]
 // Every file says the data are simulated. The demo writes the fictional berry-pigment batch of demo/README.md.
+import { mkdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
-import { writeSetFiles } from './sim/files.js';
+import { toJsonDocument, toMgf, toTruthFile, writeSetFiles } from './sim/files.js';
 import { generateSet } from './sim/generate.js';
 import { buildDemoSet, DEMO_SCENARIO } from './sim/scenario.js';
-import { toJsonDocument, toMgf, toTruthFile } from './sim/files.js';
-import { mkdirSync, writeFileSync } from 'node:fs';
 
 function arg(args: string[], name: string): string | undefined {
   const i = args.indexOf(name);

@@ -3,6 +3,7 @@ const BENCHES: Record<string, () => Promise<{ run: (args: string[]) => Promise<v
   decomposition: () => import('./decomposition.js'),
   'mzml-memory': () => import('./mzml-memory.js'),
   quality: () => import('./quality.js'),
+  e2e: () => import('./e2e.js'),
 };
 
 const [name, ...args] = process.argv.slice(2);

@@ -19,6 +19,8 @@ export interface JsonReadOptions extends ReadOptions {
 }
 
 const DEFAULT_MAX_DOCUMENT = 256 * 2 ** 20;
+/** The spectrum schema's largest peak list. */
+const MAX_PEAKS = 200000;
 const SPECTRUM_KEYS = new Set(['id', 'precursor', 'polarity', 'rt', 'peaks', 'isotopes', 'metadata']);
 const PRECURSOR_KEYS = new Set(['mz', 'charge', 'intensity']);
 
@@ -238,7 +240,7 @@ function looksLikeNdjson(text: string): boolean {
 function checkSpectrum(value: unknown, index: number, pointer: string, at: ReadIssue['position']): ReadItem {
   const id = isObject(value) && typeof value.id === 'string' && value.id.length > 0 ? value.id : undefined;
   const position = { ...at, index, ...(id ? { id } : {}) };
-  const r = SpectrumSchema.safeParse(value);
+  const r = parseSpectrum(value);
   if (!r.success) {
     const first = r.error.issues[0]!;
     const path = first.path.map((k) => String(k));
@@ -277,6 +279,33 @@ function checkSpectrum(value: unknown, index: number, pointer: string, at: ReadI
   if (spectrum.peaks.length === 0) warn('no-peaks', 'spectrum has no peaks', `${pointer}/peaks`);
   const item: SpectrumItem = { kind: 'spectrum', index, spectrum, warnings };
   return item;
+}
+
+/**
+ * {@link SpectrumSchema} validation with a fast path for the peak list, which dominates its cost (a zod tuple
+ * per peak). A peak list that passes {@link peaksValid} is checked here and the rest of the spectrum by the
+ * schema; anything else goes through the schema whole, so every error still comes from the schema. A property
+ * test holds {@link peaksValid} to the schema's verdict.
+ */
+function parseSpectrum(value: unknown): ReturnType<typeof SpectrumSchema.safeParse> {
+  if (!isObject(value) || !peaksValid(value.peaks)) return SpectrumSchema.safeParse(value);
+  const r = SpectrumSchema.safeParse({ ...value, peaks: [] });
+  if (r.success) r.data.peaks = value.peaks as Spectrum['peaks'];
+  return r;
+}
+
+/** True when `peaks` is a list the spectrum schema accepts: `[m/z > 0, intensity ≥ 0]` pairs of finite numbers. */
+export function peaksValid(peaks: unknown): boolean {
+  if (!Array.isArray(peaks) || peaks.length > MAX_PEAKS) return false;
+  for (let i = 0; i < peaks.length; i++) {
+    const p: unknown = peaks[i];
+    if (!Array.isArray(p) || p.length !== 2) return false;
+    const m: unknown = p[0];
+    const y: unknown = p[1];
+    if (typeof m !== 'number' || typeof y !== 'number') return false;
+    if (!(m > 0 && m < Number.POSITIVE_INFINITY && y >= 0 && y < Number.POSITIVE_INFINITY)) return false;
+  }
+  return true;
 }
 
 /** The reader code for a schema problem at `path`, shared with the text readers where the meaning is the same. */

@@ -18,6 +18,8 @@ const MAX_CHARGE = 10;
 const MAX_PRECURSOR_MZ = 20000;
 const MAX_ID_LENGTH = 256;
 const MAX_METADATA_LENGTH = 2000;
+/** Largest peak list the spectrum schema accepts. */
+const MAX_PEAKS = 200000;
 /** Keys that set the polarity of a block (compared upper-case). */
 const POLARITY_KEYS = new Set(['POLARITY', 'ION_MODE', 'IONMODE', 'ION MODE', 'SCAN_POLARITY']);
 /** Keys that may not become metadata property names. */
@@ -44,7 +46,7 @@ interface Block {
 }
 
 /**
- * Reads Mascot Generic Format-style peak lists, the plain-text MGF that most converters write, line by line.
+ * Reads MGF peak lists (the plain-text format most converters write), line by line, without buffering the file.
  *
  * One item per `BEGIN IONS`…`END IONS` block, in file order. `TITLE` becomes the id (a block without one gets
  * `index-N` and a `missing-id` warning); `PEPMASS` the precursor m/z and optional intensity; `CHARGE` the
@@ -215,6 +217,8 @@ class MgfParser {
       );
     } else if (mz === 0) {
       block.zeroMz++;
+    } else if (block.peaks.length >= MAX_PEAKS) {
+      this.fail(block, 'too-large', line, `block has more than ${MAX_PEAKS} peaks (line ${line})`);
     } else {
       block.peaks.push([mz, intensity]);
     }

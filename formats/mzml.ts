@@ -1,3 +1,4 @@
+import { isAscii } from 'node:buffer';
 import { StringDecoder } from 'node:string_decoder';
 import { SaxesParser, type SaxesTagPlain } from 'saxes';
 import type { Peak, Spectrum, SpectrumMetadata } from '../engine/spectrum/spectrum.js';
@@ -86,12 +87,18 @@ const TIME_UNITS: Record<string, number> = {
 const MAX_CHARGE = 10;
 const MAX_PRECURSOR_MZ = 20000;
 const MAX_ID_LENGTH = 256;
+/** Largest peak list the spectrum schema accepts. */
+const MAX_PEAKS = 200000;
 /** XML errors in the header after which the outer parser is given up (spectra are still read). */
 const MAX_OUTER_ERRORS = 1000;
 /** Default longest `<spectrum>` element read, in characters. */
 const DEFAULT_MAX_SPECTRUM_LENGTH = 256 * 2 ** 20;
 const SPECTRUM_OPEN = '<spectrum';
 const SPECTRUM_CLOSE = '</spectrum>';
+const BINARY_OPEN = '<binary>';
+const BINARY_CLOSE = '</binary>';
+const LIFTED_NAME = 'binary-lifted';
+const LIFTED = `<${LIFTED_NAME}/>`;
 
 type SpectrumItem = Extract<ReadItem, { kind: 'spectrum' }>;
 
@@ -180,11 +187,21 @@ interface SpectrumState {
 export async function* readMzml(source: ReadSource, options: MzmlReadOptions = {}): AsyncGenerator<ReadItem> {
   const reader = new MzmlParser(options);
   let decoder: StringDecoder | undefined;
+  let encoding: 'latin1' | 'utf8' | undefined;
+  // Most mzML files are pure ASCII: such chunks take a plain byte copy; the UTF-8 decoder (which carries
+  // characters split across chunks) takes over for good at the first chunk that is not.
+  let ascii = true;
   for await (const chunk of sourceChunks(source)) {
     if (typeof chunk === 'string') reader.write(chunk);
     else {
-      decoder ??= new StringDecoder(xmlEncoding(chunk));
-      reader.write(decoder.write(chunk));
+      encoding ??= xmlEncoding(chunk);
+      if (encoding === 'latin1') reader.write(chunk.toString('latin1'));
+      else if (ascii && isAscii(chunk)) reader.write(chunk.toString('latin1'));
+      else {
+        ascii = false;
+        decoder ??= new StringDecoder('utf8');
+        reader.write(decoder.write(chunk));
+      }
     }
     if (reader.out.length > 0) yield* reader.drain();
     if (reader.stopped) return;
@@ -234,6 +251,9 @@ class MzmlParser {
   private pieces: string[] = [];
   private piecesLength = 0;
   private tail = '';
+  /** Base64 texts lifted out of the current spectrum, in document order. */
+  private readonly binaries: string[] = [];
+  private nextBinary = 0;
   private discarding = false;
   /** Line number at the start of the text not yet handed to a parser. */
   private line = 1;
@@ -251,6 +271,7 @@ class MzmlParser {
     this.inner.on('opentag', (tag) => this.open(tag));
     this.inner.on('closetag', () => this.close());
     this.inner.on('text', (text) => {
+      // Only an unlifted <binary> (one whose close tag is missing) has text left.
       const cur = this.cur;
       if (cur?.array && this.ctx[this.ctx.length - 1] === 'binary') cur.array.text += text;
     });
@@ -265,22 +286,23 @@ class MzmlParser {
 
   /** Takes the next piece of the document. */
   write(text: string): void {
-    let s = text;
-    while (s.length > 0 && !this.stopped) {
+    // Positions into `s` instead of slices of it: cutting many spectra out of one large chunk must not copy
+    // the rest of the chunk each time.
+    const s = this.mode === 'outer' && this.pending.length > 0 ? this.pending + text : text;
+    this.pending = '';
+    let pos = 0;
+    while (pos < s.length && !this.stopped) {
       if (this.mode === 'outer') {
-        const t = this.pending + s;
-        this.pending = '';
-        s = '';
-        const i = findSpectrumStart(t);
+        const i = findSpectrumStart(s, pos);
         if (i < 0) {
           // Keep an unfinished tag at the end for the next round (so tag names are never split).
-          const lt = t.lastIndexOf('<');
-          const cut = lt >= 0 && t.length - lt <= 64 && t.indexOf('>', lt) < 0 ? lt : t.length;
-          this.feedOuter(t.slice(0, cut));
-          this.pending = t.slice(cut);
-          continue;
+          const lt = s.lastIndexOf('<');
+          const cut = lt >= pos && s.length - lt <= 64 && s.indexOf('>', lt) < 0 ? lt : s.length;
+          this.feedOuter(s.slice(pos, cut));
+          this.pending = s.slice(cut);
+          return;
         }
-        this.feedOuter(t.slice(0, i));
+        this.feedOuter(s.slice(pos, i));
         if (this.stopped) return;
         if (!this.rootSeen) {
           this.fatal('not an mzML document: a <spectrum> outside any <mzML> element', this.line);
@@ -292,22 +314,37 @@ class MzmlParser {
         this.piecesLength = 0;
         this.tail = '';
         this.discarding = false;
-        s = t.slice(i);
+        pos = i;
       } else {
-        const hay = this.tail + s;
-        const j = hay.indexOf(SPECTRUM_CLOSE);
-        if (j < 0) {
-          this.addPiece(s);
-          this.tail = hay.slice(-(SPECTRUM_CLOSE.length - 1));
-          s = '';
-          continue;
+        let end = -1;
+        if (this.tail.length > 0) {
+          // The close tag may straddle the previous chunk's end.
+          const k = (this.tail + s.slice(pos, pos + SPECTRUM_CLOSE.length)).indexOf(SPECTRUM_CLOSE);
+          if (k >= 0) end = pos + k + SPECTRUM_CLOSE.length - this.tail.length;
         }
-        const end = j + SPECTRUM_CLOSE.length - this.tail.length;
-        this.addPiece(s.slice(0, end));
-        s = s.slice(end);
+        if (end < 0) {
+          const j = s.indexOf(SPECTRUM_CLOSE, pos);
+          if (j >= 0) end = j + SPECTRUM_CLOSE.length;
+        }
+        if (end < 0) {
+          this.addPiece(s.slice(pos));
+          this.tail =
+            s.length - pos >= SPECTRUM_CLOSE.length - 1
+              ? s.slice(-(SPECTRUM_CLOSE.length - 1))
+              : (this.tail + s.slice(pos)).slice(-(SPECTRUM_CLOSE.length - 1));
+          return;
+        }
+        this.tail = '';
         this.mode = 'outer';
-        const block = this.pieces.join('');
-        this.pieces = [];
+        const last = s.slice(pos, end);
+        pos = end;
+        let block: string;
+        if (this.pieces.length === 0) block = last;
+        else {
+          this.addPiece(last);
+          block = this.pieces.join('');
+          this.pieces = [];
+        }
         if (this.discarding) this.discarding = false;
         else this.parseBlock(block);
         this.line = this.blockLine + countLines(block);
@@ -408,7 +445,7 @@ class MzmlParser {
   }
 
   private parseBlock(block: string): void {
-    this.inner.write(block);
+    this.inner.write(this.liftBinaries(block));
     const cur = this.cur;
     if (cur) {
       // The element did not close (malformed XML inside it).
@@ -417,6 +454,28 @@ class MzmlParser {
       this.finish(cur);
     }
     this.resetInner();
+  }
+
+  /**
+   * Takes the base64 text of each `<binary>` out of the spectrum's XML (it is most of the bytes, and an XML
+   * parser would look at every character of it) and leaves a `<binary-lifted/>` marker in its place.
+   */
+  private liftBinaries(block: string): string {
+    this.binaries.length = 0;
+    this.nextBinary = 0;
+    let a = block.indexOf(BINARY_OPEN);
+    if (a < 0) return block;
+    let out = '';
+    let pos = 0;
+    while (a >= 0) {
+      const b = block.indexOf(BINARY_CLOSE, a + BINARY_OPEN.length);
+      if (b < 0) break;
+      this.binaries.push(block.slice(a + BINARY_OPEN.length, b));
+      out += block.slice(pos, a) + LIFTED;
+      pos = b + BINARY_CLOSE.length;
+      a = block.indexOf(BINARY_OPEN, pos);
+    }
+    return out + block.slice(pos);
   }
 
   private resetInner(): void {
@@ -535,6 +594,13 @@ class MzmlParser {
       const group = this.groups.get(ref);
       if (group) for (const p of group) this.param(cur, ctx, p);
       else this.warn(cur, 'syntax', `referenceableParamGroupRef "${ref}" names no parameter group`);
+      this.ctx.push('ignore');
+      return;
+    }
+    if (name === LIFTED_NAME) {
+      if (cur.array && this.ctx[this.ctx.length - 1] === 'array')
+        cur.array.text = this.binaries[this.nextBinary] ?? '';
+      this.nextBinary++;
       this.ctx.push('ignore');
       return;
     }
@@ -874,6 +940,7 @@ class MzmlParser {
       );
     }
     const n = mzs.length;
+    if (n > MAX_PEAKS) return fail('too-large', `spectrum has ${n} peaks; at most ${MAX_PEAKS} are read`);
     const peaks: Peak[] = new Array(n);
     let k = 0;
     let zero = 0;
@@ -947,8 +1014,8 @@ class MzmlParser {
 }
 
 /** Index of the first `<spectrum` start tag in `t` (not `<spectrumList`), or -1. */
-function findSpectrumStart(t: string): number {
-  for (let i = t.indexOf(SPECTRUM_OPEN); i >= 0; i = t.indexOf(SPECTRUM_OPEN, i + 1)) {
+function findSpectrumStart(t: string, from: number): number {
+  for (let i = t.indexOf(SPECTRUM_OPEN, from); i >= 0; i = t.indexOf(SPECTRUM_OPEN, i + 1)) {
     const c = t.charCodeAt(i + SPECTRUM_OPEN.length);
     // Whitespace, '>' or '/' after the name; NaN (the text ends there) is decided with the next chunk.
     if (c === 32 || c === 9 || c === 10 || c === 13 || c === 62 || c === 47) return i;

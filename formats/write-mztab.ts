@@ -10,8 +10,10 @@
  *
  * What Peel puts where:
  * - one SMF row (feature) per spectrum with a precursor: m/z, charge, retention time, ion type;
- * - one SME row (evidence) per ranked candidate: rank (tied candidates share it), score and explained
- *   intensity as id_confidence_measure[1] and [2], the spectrum as spectra_ref, MS level 2;
+ * - one SME row (evidence) per ranked candidate and name that fits it (its aglycone and each same-formula
+ *   alternative, "ambiguity is captured by different rows for the same input data"): rank (tied
+ *   candidates share it), score and explained intensity as id_confidence_measure[1] and [2], the spectrum
+ *   as spectra_ref, MS level 2;
  * - one SML row (summary) per annotated spectrum: the best candidate and every candidate tied with it,
  *   each name the data cannot separate listed with "|" (the specification's way to report ambiguity), and
  *   the confidence level on the scale of Schymanski et al. 2014 (PSI-MS MS:1002955) as reliability.
@@ -32,7 +34,7 @@ import {
   parseFormula,
   subtractFormula,
 } from '../engine/chem/formula.js';
-import { resolveIonType } from '../engine/chem/ions.js';
+import { ION_TYPES, resolveIonType } from '../engine/chem/ions.js';
 import {
   type CandidateResult,
   DISCLAIMER,
@@ -67,6 +69,12 @@ export interface MzTabWriterOptions {
   msRuns?: readonly MzTabMsRun[];
   /** Which run (1-based) a result comes from. @defaultValue always 1 */
   msRunOf?: (result: SpectrumResult) => number;
+  /**
+   * The rule set's aglycone library. With it, each same-formula alternative is reported as its own molecule
+   * (kaempferol glycoside C26H28O15 as [M+H]+ beside the cyanidin glycoside cation C26H29O15+ as [M]+);
+   * without it, alternatives share the candidate's molecule. @defaultValue none
+   */
+  aglycones?: readonly { name: string; formula: string }[];
   /** URI of the rule set used, for database[1]-uri. @defaultValue `urn:peel-ruleset:NAME:VERSION` */
   rulesetUri?: string;
   /** Description text. @defaultValue a sentence naming the rule set, then the disclaimer */
@@ -165,6 +173,7 @@ export function createMzTabWriter(out: Writable, options: MzTabWriterOptions = {
   const smf = new Spool(spoolDir, 'smf', limit);
   const sme = new Spool(spoolDir, 'sme', limit);
   const assayNulls = runs.map(() => 'null');
+  const library = new Map((options.aglycones ?? []).map((a) => [a.name, a.formula]));
   let ref: RuleSetRef | undefined;
   let smlId = 0;
   let smfId = 0;
@@ -193,45 +202,47 @@ export function createMzTabWriter(out: Writable, options: MzTabWriterOptions = {
       const evidenceInput = `ms_run[${run}]:${text(result.id)}`;
       const featureId = ++smfId;
 
-      // Evidence: every ranked candidate; tied candidates share the rank of the one they tie with.
+      // Evidence: every ranked candidate, one row per name that fits it (its aglycone and the library's
+      // same-formula alternatives); tied candidates share the rank of the one they tie with.
       const smeIds: number[] = [];
       let rank = 0;
       const ranks: number[] = [];
+      const ids = result.candidates.map((c) => identities(c, result, library));
       result.candidates.forEach((c, i) => {
         rank = i > 0 && c.tiedWithPrevious ? rank : c.rank;
         ranks.push(rank);
-        const cIon = safeIon(candidateIonType(c, result) ?? null);
-        const m = moleculeOf(c, cIon);
-        const id = ++smeId;
-        smeIds.push(id);
-        sme.add(
-          line('SME', [
-            String(id),
-            evidenceInput,
-            dbId(c.aglycone.name),
-            m.formula,
-            'null',
-            'null',
-            text(candidateName(c.aglycone.name, c.substituents)),
-            'null',
-            'null',
-            cIon ? cIon.name : 'null',
-            decimal(precursor.mz, 6),
-            charge,
-            decimal(m.theoreticalMz ?? precursor.mz / (1 + c.ppm / 1e6), 6),
-            spectraRef,
-            `[,,Peel fragmentation-tree scoring, ${param(ruleset(ref!))}]`,
-            '[MS, MS:1000511, ms level, 2]',
-            num(c.score, 4),
-            num(c.explainedIntensity, 4),
-            String(rank),
-            text(result.id),
-            text(c.topology),
-            num(c.ppm, 3),
-            num(c.explainedIntensity, 4),
-            String(c.confidenceLevel),
-          ]),
-        );
+        for (const m of ids[i]!) {
+          const id = ++smeId;
+          smeIds.push(id);
+          sme.add(
+            line('SME', [
+              String(id),
+              evidenceInput,
+              dbId(m.name),
+              m.formula,
+              'null',
+              'null',
+              text(candidateName(m.name, c.substituents)),
+              'null',
+              'null',
+              m.ion ?? 'null',
+              decimal(precursor.mz, 6),
+              charge,
+              decimal(m.theoreticalMz ?? precursor.mz / (1 + c.ppm / 1e6), 6),
+              spectraRef,
+              `[,,Peel fragmentation-tree scoring, ${param(ruleset(ref!))}]`,
+              '[MS, MS:1000511, ms level, 2]',
+              num(c.score, 4),
+              num(c.explainedIntensity, 4),
+              String(rank),
+              text(result.id),
+              text(c.topology),
+              num(c.ppm, 3),
+              num(c.explainedIntensity, 4),
+              String(c.confidenceLevel),
+            ]),
+          );
+        }
       });
 
       smf.add(
@@ -257,13 +268,8 @@ export function createMzTabWriter(out: Writable, options: MzTabWriterOptions = {
       }
       // Summary: the best candidate and those tied with it, each aglycone alternative as its own entry.
       const top = result.candidates.filter((_, i) => ranks[i] === ranks[0]);
-      const entries = top.flatMap((c) => {
-        const m = moleculeOf(c, safeIon(candidateIonType(c, result) ?? null));
-        return [c.aglycone.name, ...c.aglycone.alternatives].map((name) => ({ name, c, m }));
-      });
-      const adducts = [
-        ...new Set(top.map((c) => candidateIonType(c, result)).filter((t) => t !== undefined)),
-      ];
+      const entries = result.candidates.flatMap((_, i) => (ranks[i] === ranks[0] ? ids[i]! : []));
+      const adducts = [...new Set(entries.map((e) => e.ion).filter((t) => t !== undefined))];
       const best = top[0]!;
       const bar = (xs: string[]) => xs.join('|');
       sml.add(
@@ -271,12 +277,12 @@ export function createMzTabWriter(out: Writable, options: MzTabWriterOptions = {
           String(++smlId),
           String(featureId),
           bar(entries.map((e) => dbId(e.name))),
-          bar(entries.map((e) => e.m.formula)),
+          bar(entries.map((e) => e.formula)),
           bar(entries.map(() => 'null')),
           bar(entries.map(() => 'null')),
-          bar(entries.map((e) => text(candidateName(e.name, e.c.substituents)))),
+          bar(entries.map((e) => text(candidateName(e.name, e.substituents)))),
           bar(entries.map(() => 'null')),
-          bar(entries.map((e) => (e.m.neutralMass === undefined ? 'null' : decimal(e.m.neutralMass, 6)))),
+          bar(entries.map((e) => (e.neutralMass === undefined ? 'null' : decimal(e.neutralMass, 6)))),
           adducts.length > 0 ? adducts.map((a) => text(a)).join('|') : 'null',
           String(best.confidenceLevel),
           CONFIDENCE_MEASURES[0]!,
@@ -462,6 +468,71 @@ export function candidateName(aglycone: string, substituents: readonly Substitue
   }
   const parts = [...groups].map(([k, n]) => (n > 1 ? `${n} ${k}` : k));
   return [aglycone, ...parts].join(' + ');
+}
+
+/** One name that fits a candidate, with the molecule it implies. */
+interface Identity {
+  name: string;
+  substituents: readonly Substituent[];
+  formula: string;
+  neutralMass?: number;
+  theoreticalMz?: number;
+  /** Ion type name, when known. */
+  ion?: string;
+}
+
+/** The candidate's aglycone and each same-formula alternative, each with its own molecule when the library says. */
+function identities(c: CandidateResult, result: SpectrumResult, library: Map<string, string>): Identity[] {
+  const ion = safeIon(candidateIonType(c, result) ?? null);
+  const shared = moleculeOf(c, ion);
+  return [c.aglycone.name, ...c.aglycone.alternatives].map((name) => {
+    const own = swapAglycone(c, library.get(name));
+    return {
+      name,
+      substituents: c.substituents,
+      ...(own ?? { ...shared, ...(ion ? { ion: ion.name } : {}) }),
+    };
+  });
+}
+
+/**
+ * The molecule of a candidate read with another library aglycone: the candidate's ion with its aglycone
+ * ion (Y0) replaced by the library formula. A neutral aglycone gives a neutral molecule and the ion type
+ * that bridges them ([M+H]+, [M-H]-…); a permanent cation (flavylium) gives a cation seen as [M]+.
+ */
+function swapAglycone(
+  c: CandidateResult,
+  libraryFormula: string | undefined,
+): Omit<Identity, 'name' | 'substituents'> | undefined {
+  if (!libraryFormula) return undefined;
+  let ionF: Formula;
+  let y0: Formula;
+  let lib: Formula;
+  try {
+    ionF = parseFormula(c.formula);
+    y0 = parseFormula(c.aglycone.formula);
+    lib = parseFormula(libraryFormula);
+  } catch {
+    return undefined;
+  }
+  if (ionF.charge === 0 || y0.charge !== ionF.charge) return undefined;
+  const delta = subtractFormula(y0, lib);
+  const molecule = subtractFormula(ionF, delta);
+  if (molecule.counts.some((n) => n < 0)) return undefined;
+  const zeroDelta = delta.counts.every((n) => n === 0);
+  const type = ION_TYPES.find(
+    (t) =>
+      t.multiplier === 1 &&
+      t.charge === ionF.charge &&
+      t.delta.counts.every((n, i) => n === delta.counts[i]) &&
+      (zeroDelta ? molecule.charge === t.charge : molecule.charge === 0),
+  );
+  return {
+    formula: formatFormula(molecule),
+    neutralMass: neutralMass(molecule),
+    theoreticalMz: formulaMz(ionF),
+    ...(type ? { ion: type.name } : {}),
+  };
 }
 
 /**

@@ -31,6 +31,10 @@ export function spectrumHash(s: Spectrum): string {
  * The part of a result's cache key that is not the spectrum: rule set, tolerances, user candidates and the
  * engine version (so a new engine never serves an old engine's results).
  */
-export function scoringKey(parts: { rulesetSha256: string; options: unknown; engineVersion: string }): string {
+export function scoringKey(parts: {
+  rulesetSha256: string;
+  options: unknown;
+  engineVersion: string;
+}): string {
   return sha256Hex(canonicalJson(parts)).slice(0, 32);
 }

@@ -23,7 +23,8 @@ export function redisKeys(prefix: string) {
     /** A spectrum by content hash: stored once however often it is submitted. */
     spectrum: (hash: string) => `${prefix}:spectrum:${hash}`,
     /** A result by spectrum hash + scoring key (rule set, options, engine version). */
-    cachedResult: (scoringKey: string, spectrumHash: string) => `${prefix}:result:${scoringKey}:${spectrumHash}`,
+    cachedResult: (scoringKey: string, spectrumHash: string) =>
+      `${prefix}:result:${scoringKey}:${spectrumHash}`,
     ruleset: (sha256: string) => `${prefix}:ruleset:${sha256}`,
     /** HASH sha256 → JSON summary of every stored rule set. */
     rulesets: () => `${prefix}:rulesets`,

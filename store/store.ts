@@ -140,6 +140,19 @@ end
 return state
 `;
 
+// Ends reception: sets the total; the batch becomes `running` if jobs already recorded results, else `queued`
+// (unless it was cancelled meanwhile).
+const FINALIZE = `
+local state = redis.call('HGET', KEYS[1], 'state')
+if not state then return '' end
+redis.call('HSET', KEYS[1], 'total', ARGV[1], 'updatedAt', ARGV[2])
+if state == 'receiving' then
+  if tonumber(redis.call('HGET', KEYS[1], 'processed') or '0') > 0 then state = 'running' else state = 'queued' end
+  redis.call('HSET', KEYS[1], 'state', state)
+end
+return state
+`;
+
 const TERMINAL: ReadonlySet<BatchState> = new Set(['completed', 'failed', 'cancelled']);
 
 /** Whether a batch state is final. */
@@ -233,7 +246,11 @@ export class Store {
   }
 
   /** A client's batches, newest first; `before` is the last id of the previous page. */
-  async listBatches(clientId: string, limit: number, before?: string): Promise<{ ids: string[]; next: string | null }> {
+  async listBatches(
+    clientId: string,
+    limit: number,
+    before?: string,
+  ): Promise<{ ids: string[]; next: string | null }> {
     const ids = await this.redis.zrevrangebylex(
       this.keys.clientBatches(clientId),
       before ? `(${before}` : '+',
@@ -252,7 +269,10 @@ export class Store {
    */
   async appendItems(
     batchId: string,
-    entries: Array<{ index: number; id: string; hash: string; spectrum: Spectrum } | { index: number; error: SpectrumResult }>,
+    entries: Array<
+      | { index: number; id: string; hash: string; spectrum: Spectrum }
+      | { index: number; error: SpectrumResult }
+    >,
   ): Promise<void> {
     if (entries.length === 0) return;
     const p = this.redis.pipeline();
@@ -290,10 +310,13 @@ export class Store {
     return raw.map((r) => JSON.parse(r));
   }
 
-  /** Ends reception: sets the total and moves the batch to `queued`. */
+  /**
+   * Ends reception: sets the total and moves the batch to `queued` (or `running`, if jobs queued during the
+   * upload already recorded results); finishes it if every result is already in.
+   */
   async finalizeBatch(batchId: string): Promise<MarkOutcome> {
     const total = await this.redis.llen(this.keys.items(batchId));
-    await this.redis.hset(this.keys.batch(batchId), { total: String(total), state: 'queued', updatedAt: this.iso() });
+    await this.redis.eval(FINALIZE, 1, this.keys.batch(batchId), String(total), this.iso());
     return this.markResults(batchId, []);
   }
 
@@ -453,7 +476,11 @@ export class Store {
   // ——— idempotency ———
 
   /** Claims an idempotency key; returns null when claimed now, else the existing record. */
-  async claimIdempotencyKey(clientId: string, key: string, lockSeconds: number): Promise<IdempotencyRecord | null> {
+  async claimIdempotencyKey(
+    clientId: string,
+    key: string,
+    lockSeconds: number,
+  ): Promise<IdempotencyRecord | null> {
     const k = this.keys.idempotency(clientId, key);
     const rec: IdempotencyRecord = { state: 'in-flight', startedAt: this.iso() };
     const ok = await this.redis.set(k, JSON.stringify(rec), 'EX', lockSeconds, 'NX');
@@ -481,7 +508,12 @@ export class Store {
   // ——— webhooks ———
 
   /** Sets a client's webhook endpoint, keeping its secret unless `secret` is given. */
-  async setWebhook(clientId: string, url: string, newSecret: () => string, rotate = false): Promise<WebhookEndpoint> {
+  async setWebhook(
+    clientId: string,
+    url: string,
+    newSecret: () => string,
+    rotate = false,
+  ): Promise<WebhookEndpoint> {
     const k = this.keys.webhook(clientId);
     const existing = await this.getWebhook(clientId);
     const ep: WebhookEndpoint = {

@@ -29,11 +29,17 @@ async function main(): Promise<void> {
               res.writeHead(200, { 'content-type': 'application/json' }).end('{"status":"ready"}');
             } catch {
               res.writeHead(503, { 'content-type': 'application/problem+json' }).end(
-                JSON.stringify({ type: 'urn:peel:problem:store-unavailable', title: 'Storage unavailable', status: 503 }),
+                JSON.stringify({
+                  type: 'urn:peel:problem:store-unavailable',
+                  title: 'Storage unavailable',
+                  status: 503,
+                }),
               );
             }
           } else if (req.url === '/metrics') {
-            res.writeHead(200, { 'content-type': metrics.registry.contentType }).end(await metrics.registry.metrics());
+            res
+              .writeHead(200, { 'content-type': metrics.registry.contentType })
+              .end(await metrics.registry.metrics());
           } else {
             res.writeHead(404).end();
           }

@@ -59,7 +59,14 @@ export function createProcessor(deps: ProcessorDeps): (job: ChunkJob) => Promise
   return async function processChunk(job: ChunkJob): Promise<ScoreJobResult> {
     const t0 = performance.now();
     const { batchId, start, end } = job.data;
-    const out: ScoreJobResult = { scored: 0, cached: 0, skipped: 0, byStatus: { computed: {}, cached: {} }, finished: null, durationMs: 0 };
+    const out: ScoreJobResult = {
+      scored: 0,
+      cached: 0,
+      skipped: 0,
+      byStatus: { computed: {}, cached: {} },
+      finished: null,
+      durationMs: 0,
+    };
     const batch = await store.getBatch(batchId);
     if (!batch || batch.state === 'cancelled') {
       out.skipped = end - start + 1;
@@ -77,15 +84,24 @@ export function createProcessor(deps: ProcessorDeps): (job: ChunkJob) => Promise
     if (todo.length > 0) {
       const compiledRules = await rulesFor(batch.ruleset.sha256);
       const options: ScoreOptions = {
-        ...(batch.options.tolerance?.fragmentPpm !== undefined ? { fragmentPpm: batch.options.tolerance.fragmentPpm } : {}),
+        ...(batch.options.tolerance?.fragmentPpm !== undefined
+          ? { fragmentPpm: batch.options.tolerance.fragmentPpm }
+          : {}),
         ...(batch.options.tolerance?.precursorPpm !== undefined
           ? { precursorPpm: batch.options.tolerance.precursorPpm }
           : {}),
         ...(batch.options.candidates ? { candidates: batch.options.candidates } : {}),
       };
-      const key = scoringKey({ rulesetSha256: batch.ruleset.sha256, options, engineVersion: deps.engineVersion });
+      const key = scoringKey({
+        rulesetSha256: batch.ruleset.sha256,
+        options,
+        engineVersion: deps.engineVersion,
+      });
       const hashes = todo.map((i) => i.hash!);
-      const [spectra, cached] = await Promise.all([store.getSpectra(hashes), store.getCachedResults(key, hashes)]);
+      const [spectra, cached] = await Promise.all([
+        store.getSpectra(hashes),
+        store.getCachedResults(key, hashes),
+      ]);
       const fresh: Array<{ hash: string; result: SpectrumResult }> = [];
       for (let k = 0; k < todo.length; k++) {
         const item = todo[k]!;

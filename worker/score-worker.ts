@@ -12,7 +12,7 @@ import {
   WEBHOOK_QUEUE,
   type WebhookJobData,
 } from './queues.js';
-import type { SandboxSettings } from './score-sandbox.js';
+import type { SandboxSettings } from './sandbox-processor.js';
 import { errorResult } from './score-processor.js';
 import { createWebhookProcessor, enqueueBatchEvent } from './webhooks.js';
 import type { Queue } from 'bullmq';
@@ -60,25 +60,30 @@ export function createScoreWorker(o: ScoreWorkerOptions): Worker<ScoreJobData, S
     engineVersion: o.engineVersion,
     cacheTtlSeconds: o.cacheTtlSeconds,
   };
-  const worker = new Worker<ScoreJobData, ScoreJobResult>(SCORE_QUEUE, o.processorFile ?? defaultProcessorFile(), {
-    connection: o.connection,
-    prefix: o.queue.prefix,
-    concurrency: o.concurrency ?? 2,
-    useWorkerThreads: true,
-    workerThreadsOptions: { workerData: settings },
-    lockDuration: o.lockDurationMs ?? 30_000,
-    stalledInterval: o.stalledIntervalMs ?? 30_000,
-    maxStalledCount: 2,
-    removeOnComplete: { count: o.queue.keepCompleted },
-    removeOnFail: { count: o.queue.keepFailed },
-  });
+  const worker = new Worker<ScoreJobData, ScoreJobResult>(
+    SCORE_QUEUE,
+    o.processorFile ?? defaultProcessorFile(),
+    {
+      connection: o.connection,
+      prefix: o.queue.prefix,
+      concurrency: o.concurrency ?? 2,
+      useWorkerThreads: true,
+      workerThreadsOptions: { workerData: settings },
+      lockDuration: o.lockDurationMs ?? 30_000,
+      stalledInterval: o.stalledIntervalMs ?? 30_000,
+      maxStalledCount: 2,
+      removeOnComplete: { count: o.queue.keepCompleted },
+      removeOnFail: { count: o.queue.keepFailed },
+    },
+  );
   worker.on('completed', (job) => {
     const r = job.returnvalue;
     o.metrics?.chunkJobs.inc({ outcome: 'completed' });
     if (!r) return;
     o.metrics?.chunkDuration.observe(r.durationMs / 1000);
     for (const origin of ['computed', 'cached'] as const) {
-      for (const [status, n] of Object.entries(r.byStatus[origin])) o.metrics?.spectraProcessed.inc({ status, origin }, n);
+      for (const [status, n] of Object.entries(r.byStatus[origin]))
+        o.metrics?.spectraProcessed.inc({ status, origin }, n);
     }
     if (r.finished) o.logger.info({ batchId: job.data.batchId, state: r.finished }, 'batch finished');
   });
@@ -96,7 +101,13 @@ async function onFailed(o: ScoreWorkerOptions, job: Job<ScoreJobData>, err: Erro
   const final = await job.isFailed();
   o.metrics?.chunkJobs.inc({ outcome: final ? 'failed' : 'retried' });
   o.logger.warn(
-    { batchId: job.data.batchId, jobId: job.id, attempt: job.attemptsMade, final, err: { name: err.name, message: err.message } },
+    {
+      batchId: job.data.batchId,
+      jobId: job.id,
+      attempt: job.attemptsMade,
+      final,
+      err: { name: err.name, message: err.message },
+    },
     final ? 'scoring job failed for good' : 'scoring job failed; will retry',
   );
   if (!final) return;
@@ -106,7 +117,10 @@ async function onFailed(o: ScoreWorkerOptions, job: Job<ScoreJobData>, err: Erro
     batchId,
     items.map((i) => ({
       index: i.index,
-      result: { ...errorResult(i.id, 'processing-failed', 'this spectrum could not be processed'), index: i.index },
+      result: {
+        ...errorResult(i.id, 'processing-failed', 'this spectrum could not be processed'),
+        index: i.index,
+      },
     })),
     true,
   );
@@ -143,7 +157,11 @@ export function createWebhookWorker(o: WebhookWorkerOptions): Worker<WebhookJobD
     removeOnFail: { count: o.queue.keepFailed },
   });
   worker.on('failed', (job, err) => {
-    if (job) o.logger.warn({ batchId: job.data.batchId, attempt: job.attemptsMade, err: err.message }, 'webhook attempt failed');
+    if (job)
+      o.logger.warn(
+        { batchId: job.data.batchId, attempt: job.attemptsMade, err: err.message },
+        'webhook attempt failed',
+      );
   });
   worker.on('error', (err) => o.logger.error({ err }, 'webhook worker error'));
   return worker;

@@ -14,7 +14,9 @@ function secretBytes(secret: string): Buffer {
  * under the base64-decoded secret.
  */
 export function signWebhook(secret: string, id: string, timestampSeconds: number, body: string): string {
-  const mac = createHmac('sha256', secretBytes(secret)).update(`${id}.${timestampSeconds}.${body}`).digest('base64');
+  const mac = createHmac('sha256', secretBytes(secret))
+    .update(`${id}.${timestampSeconds}.${body}`)
+    .digest('base64');
   return `v1,${mac}`;
 }
 
@@ -35,7 +37,8 @@ export function verifyWebhook(
   const { id, timestamp, signature } = headers;
   if (!id || !timestamp || !signature) return { ok: false, reason: 'missing-headers' };
   const ts = Number(timestamp);
-  if (!Number.isInteger(ts) || Math.abs(nowSeconds - ts) > toleranceSeconds) return { ok: false, reason: 'stale-timestamp' };
+  if (!Number.isInteger(ts) || Math.abs(nowSeconds - ts) > toleranceSeconds)
+    return { ok: false, reason: 'stale-timestamp' };
   const expected = Buffer.from(signWebhook(secret, id, ts, body).slice(3), 'base64');
   for (const part of signature.split(' ')) {
     const [version, sig] = part.split(',', 2);

@@ -21,7 +21,11 @@ export async function enqueueBatchEvent(
   const endpoint = await store.getWebhook(batch.clientId);
   if (!endpoint) return false;
   const event: WebhookEvent =
-    batch.state === 'completed' ? 'batch.completed' : batch.state === 'cancelled' ? 'batch.cancelled' : 'batch.failed';
+    batch.state === 'completed'
+      ? 'batch.completed'
+      : batch.state === 'cancelled'
+        ? 'batch.cancelled'
+        : 'batch.failed';
   const webhookId = `msg_${batchId}_${event.split('.')[1]}`;
   const body = JSON.stringify({
     type: event,
@@ -60,7 +64,9 @@ export interface WebhookJob {
  * current secret and POSTs it; any answer but 2xx (redirects included) throws, so BullMQ retries with
  * backoff and jitter. Every attempt is logged on the batch.
  */
-export function createWebhookProcessor(deps: WebhookProcessorDeps): (job: WebhookJob) => Promise<{ status: number } | null> {
+export function createWebhookProcessor(
+  deps: WebhookProcessorDeps,
+): (job: WebhookJob) => Promise<{ status: number } | null> {
   const now = deps.now ?? (() => new Date());
   return async function deliver(job: WebhookJob) {
     const { clientId, batchId, webhookId, event, body } = job.data;

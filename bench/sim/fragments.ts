@@ -206,6 +206,23 @@ export function glycosideFragments(
     if (intact) {
       // The surviving precursor: variable, sometimes nearly gone.
       intensity = rng.chance(0.05) ? 0 : st.prob * rng.logUniform(0.15, 3) + rng.logUniform(0.005, 0.08);
+      if (st.keptCRoots.length > 0) {
+        // C-glycosides lose hardly any sugar: cross-ring cleavages of the intact ion carry the spectrum
+        // (vitexin [M−H]⁻ 431 → 311, 341; REFERENCE.md §4).
+        const share = rng.uniform(0.5, 0.92);
+        const total = st.prob * rng.logNormal(0, 0.2);
+        for (const x of crossRing(st.keptCRoots, negative, metal, rng)) {
+          const ion = subtract(bigForTwo ? fragmentIon(m, ionType) : precursor, x.loss);
+          if (isValid(ion))
+            peaks.push({
+              formula: ion,
+              intensity: total * share * x.w,
+              label: `[M]${x.label}`,
+              kind: 'cross-ring',
+            });
+        }
+        intensity = rng.chance(0.03) ? 0 : total * (1 - share) * rng.logUniform(0.3, 2);
+      }
       emitPrecursor(peaks, precursor, m, ionType, intensity, rng);
       if (rng.chance(0.3)) {
         peaks.push({

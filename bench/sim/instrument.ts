@@ -12,7 +12,7 @@ import type { Rng } from './prng.js';
 export interface SimPeak {
   mz: number;
   intensity: number;
-  /** Theoretical m/z of the strongest contributor (undefined for noise). */
+  /** Exact m/z before calibration error (undefined for noise and for merged centroids). */
   theoreticalMz?: number;
   /** Hill formula of the strongest contributor, with charge. */
   formula?: string;
@@ -46,6 +46,8 @@ export interface InstrumentRecord {
 
 interface Work {
   mz: number;
+  /** Set when unresolved neighbours were merged into this centroid. */
+  merged?: boolean;
   rel: number;
   z: number;
   formula?: Formula;
@@ -146,7 +148,9 @@ export function acquire(
   const resolution = o.resolution ?? rng.uniform(20000, 60000);
   const detection = o.detectionLimit ?? rng.uniform(0.002, 0.008);
   const lowMz = o.lowMz ?? rng.uniform(50, 90);
-  const highMz = ctx.precursorMz + 3.5 / Math.abs(ctx.precursorCharge);
+  // Singly charged fragments of a multiply charged precursor lie above its m/z: record up to its mass.
+  const z = Math.abs(ctx.precursorCharge) || 1;
+  const highMz = z > 1 ? ctx.precursorMz * z + 2 : ctx.precursorMz + 3.5;
   const maxPeaks = o.maxPeaks ?? 100;
 
   const work = record(ideal, lowMz, highMz, detection);
@@ -165,7 +169,7 @@ export function acquire(
   const noisePeaks = Math.round(noiseFraction * realCount);
   for (let i = 0; i < noisePeaks; i++) {
     work.push({
-      mz: rng.uniform(lowMz, Math.max(lowMz + 10, ctx.precursorMz + 1)),
+      mz: rng.uniform(lowMz, Math.max(lowMz + 10, z > 1 ? highMz - 2 : ctx.precursorMz + 1)),
       rel: rng.logUniform(Math.max(detection, 0.002), 0.05),
       z: 1,
       labels: ['noise'],
@@ -181,6 +185,7 @@ export function acquire(
       const tot = last.rel + p.rel;
       const strongerIsNew = p.rel > last.rel;
       last.mz = (last.mz * last.rel + p.mz * p.rel) / tot;
+      last.merged = true;
       last.rel = tot;
       if (strongerIsNew) {
         last.labels = [...p.labels, ...last.labels];
@@ -205,11 +210,9 @@ export function acquire(
     const mz = p.mz * (1 + (systematicPpm + random) / 1e6) + rng.normal(0, 0.00015);
     const intensity = Math.max(1, p.rel * baseAbs * rng.logNormal(0, 0.06));
     const out: SimPeak = { mz, intensity, labels: p.labels, kinds: p.kinds };
-    if (p.formula) {
-      out.formula = formatFormula(p.formula);
-      if (!p.kinds[0]?.startsWith('isotope')) out.theoreticalMz = p.mz;
-    }
-    if (p.kinds[0] === 'isotope') out.theoreticalMz = p.mz;
+    if (p.formula) out.formula = formatFormula(p.formula);
+    // The exact m/z of a peak with one origin (or one formula); a merged centroid has none.
+    if (!p.merged && p.kinds[0] !== 'noise') out.theoreticalMz = p.mz;
     return out;
   });
   peaks.sort((a, b) => a.mz - b.mz);

@@ -119,18 +119,7 @@ export function libraryAglycone(def: AglyconeDef): AglyconeInstance {
   return { name: def.name, class: def.class, formula: f(def.formula), library: true, scaffold: def };
 }
 
-/** Formula strings of every library aglycone (neutral or cation) — an invented one must not hit these. */
-const LIBRARY_FORMULAS = new Set(
-  [...AGLYCONES.map((d) => d.formula), ...OTHER_KNOWN_AGLYCONE_FORMULAS].map((x) => formatFormula(f(x))),
-);
-
-const MODIFICATIONS: readonly {
-  text: string;
-  delta: string;
-  minus?: boolean;
-  weight: number;
-  n?: boolean;
-}[] = [
+const MODIFICATIONS: readonly { text: string; delta: string; minus?: boolean; weight: number }[] = [
   { text: '+CH2O (extra methoxy)', delta: 'CH2O', weight: 3 },
   { text: '+CH2 (O- or C-methyl)', delta: 'CH2', weight: 3 },
   { text: '+O (extra hydroxy)', delta: 'O', weight: 3 },
@@ -140,24 +129,38 @@ const MODIFICATIONS: readonly {
   { text: '-O (deoxy)', delta: 'O', minus: true, weight: 1 },
   { text: '+H2 (dihydro)', delta: 'H2', weight: 1 },
   { text: '+C10H16 (geranyl)', delta: 'C10H16', weight: 0.5 },
-  { text: '+NH (amino)', delta: 'NH', weight: 0.6, n: true },
-  { text: '+C2H3N (aminoethyl)', delta: 'C2H3N', weight: 0.3, n: true },
+  { text: '+NH (amino)', delta: 'NH', weight: 0.6 },
+  { text: '+C2H3N (aminoethyl)', delta: 'C2H3N', weight: 0.3 },
 ];
 
 /**
- * Formulas the engine could explain as a library aglycone plus or minus one residue, acyl group or small
+ * A formula as the singly charged cation it shows as in positive mode: a flavylium as it is, a neutral
+ * aglycone protonated. A flavylium and a protonated neutral with the same key cannot be told apart
+ * (cyanidin⁺ = kaempferol [M+H]⁺, REFERENCE.md §3), so invented aglycones are compared on this key.
+ */
+function ionKey(x: Formula): string {
+  return formatFormula(x.charge === 1 ? x : { counts: sum(x, f('H')).counts, charge: 1 });
+}
+
+const KNOWN_AGLYCONE_FORMULAS = [...AGLYCONES.map((d) => d.formula), ...OTHER_KNOWN_AGLYCONE_FORMULAS];
+
+/** Ion keys of every library aglycone (neutral or cation) — an invented one must not hit these. */
+const LIBRARY_FORMULAS = new Set(KNOWN_AGLYCONE_FORMULAS.map((x) => ionKey(f(x))));
+
+/**
+ * Ion keys the engine could explain as a library aglycone plus or minus one residue, acyl group or small
  * loss: an invented aglycone must differ from every library aglycone by something else, or the honest
  * answer would be ambiguous rather than "unknown".
  */
 const NEAR_LIBRARY = (() => {
   const out = new Set<string>();
   const deltas = [...Object.values(RESIDUES), ...ACYL_NAMES.map((n) => ACYLS[n].formula), 'H2O', 'CO', 'CO2'];
-  for (const formula of [...AGLYCONES.map((d) => d.formula), ...OTHER_KNOWN_AGLYCONE_FORMULAS]) {
+  for (const formula of KNOWN_AGLYCONE_FORMULAS) {
     const base = f(formula);
     for (const delta of deltas) {
       for (const sign of [1, -1]) {
         const x = sign > 0 ? sum(base, f(delta)) : subtract(base, f(delta));
-        if (isValid(x)) out.add(formatFormula(x));
+        if (isValid(x)) out.add(ionKey(x));
       }
     }
   }
@@ -188,8 +191,14 @@ export function unknownAglycone(rng: Rng, extraForbidden?: ReadonlySet<string>):
       texts.push(m.text);
     }
     if (!isValid(formula) || formula.counts[3]! < 1) continue;
-    const k = formatFormula(formula);
-    if (LIBRARY_FORMULAS.has(k) || NEAR_LIBRARY.has(k) || extraForbidden?.has(k)) continue;
+    const k = ionKey(formula);
+    if (
+      LIBRARY_FORMULAS.has(k) ||
+      NEAR_LIBRARY.has(k) ||
+      extraForbidden?.has(k) ||
+      extraForbidden?.has(formatFormula(formula))
+    )
+      continue;
     const ring: 'A' | 'B' = rng.chance(0.5) ? 'A' : 'B';
     return {
       name: 'unknown',

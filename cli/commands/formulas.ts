@@ -212,7 +212,7 @@ export const formulasCommand: Command = async (argv: string[], io: CliIo) => {
       println(io.stdout, '  no formula within tolerance');
       continue;
     }
-    println(io.stdout, table(r.formulas, flags.ion !== undefined));
+    println(io.stdout, table(r.mz, r.formulas, flags.ion ? 'ion m/z' : flags.charge ? 'm/z' : 'mass'));
   }
   println(io.stdout);
   println(
@@ -222,14 +222,20 @@ export const formulasCommand: Command = async (argv: string[], io: CliIo) => {
   return 0;
 };
 
-function table(rows: readonly Decomposition[], ion: boolean): string {
-  const head = ['#', 'formula', ion ? 'ion m/z' : 'calc', 'Δ mDa', 'ppm', 'RDBE'];
+/** Fixed decimals without a minus sign on a value that rounds to zero. */
+function fixed(x: number, digits: number): string {
+  const s = x.toFixed(digits);
+  return /^-0\.?0*$/.test(s) ? s.slice(1) : s;
+}
+
+function table(observed: number, rows: readonly Decomposition[], calcHeader: string): string {
+  const head = ['#', 'formula', calcHeader, 'Δ mDa', 'ppm', 'RDBE'];
   const body = rows.map((d, i) => [
     String(i + 1),
     formatFormula(d.formula),
     d.mz.toFixed(5),
-    (d.error * 1000).toFixed(2),
-    d.ppm.toFixed(2),
+    fixed((observed - d.mz) * 1000, 2),
+    fixed(d.ppm, 2),
     String(d.rdbe),
   ]);
   const widths = head.map((h, j) => Math.max(h.length, ...body.map((row) => row[j]!.length)));

@@ -1,10 +1,10 @@
 import { type Counts, NE } from '../graph/counts.js';
-import type { Derivation, FragNode, HypothesisGraph } from '../graph/fragment-graph.js';
+import type { CationDerivation, Derivation, FragNode, HypothesisGraph } from '../graph/fragment-graph.js';
 import type { CompiledRuleSet } from '../rules/compile.js';
 import type { CleanSpectrum } from '../spectrum/clean.js';
 import type { TreeSolution } from '../tree/graph.js';
 import { fragmentDelta, type Interpretation, type PrecursorHypothesis } from './precursor.js';
-import { enumerateTopologies, removedKey, type Topology } from './topology.js';
+import { enumerateTopologies, removedKey, searchTopologies, type Topology } from './topology.js';
 
 /** A peak a candidate explains, with the ion it reads it as. */
 export interface CandidateMatch {
@@ -21,12 +21,32 @@ export interface EvaluatedCandidate {
   readonly y0: { counts: Counts; charge: number };
   readonly explained: number;
   readonly score: number;
-  readonly matches: CandidateMatch[];
-  /** Ions predicted but not observed: 'Y0', 'X' (cross-ring), or a Y-loss key ({@link removedKey}). */
-  readonly missing: (number | 'Y0' | 'X')[];
+  /** Every reading of every peak under this candidate's composition (shared by its topologies). */
+  readonly readings: readonly PeakReadings[];
+  /** Per entry of `readings`, the index of the reading this topology takes (-1: peak not explained). */
+  readonly chosen: Int16Array;
   /** Whether the aglycone is evidenced: Y0 (or its radical / water loss) or C-glycoside cross-ring ions. */
   readonly keyIonSeen: boolean;
   readonly treeScore: number;
+}
+
+/** One way to read a peak under a composition. */
+export interface Reading {
+  readonly node: FragNode;
+  readonly deriv?: Derivation;
+  readonly cation?: CationDerivation;
+  /** Y-loss key (Y ions, cross-ring ions) or unit key (oxonium / acylium ions). */
+  readonly key: number;
+  /** 0 a Y ion itself, 1 a Y ion after small losses, 2 a cross-ring ion, 3 an oxonium or acylium ion. */
+  readonly kind: 0 | 1 | 2 | 3;
+  readonly weight: number;
+}
+
+/** The readings of one peak, best weight first. */
+export interface PeakReadings {
+  readonly peak: number;
+  readonly intensity: number;
+  readonly list: readonly Reading[];
 }
 
 /** Weights and limits for {@link evaluateCandidates}. */
@@ -40,42 +60,94 @@ export interface EvaluateOptions {
   best: { score: number };
   /** @defaultValue 4 */
   window?: number;
+  /** Compositions of one hypothesis whose topologies are enumerated (best bounds first). @defaultValue 3 */
+  maxCompositions?: number;
+  /** Topologies enumerated per composition. @defaultValue 400 */
+  maxTopologies?: number;
+  /** Compositions of at most this many units are enumerated in full; larger ones by local search. @defaultValue 4 */
+  enumerateUpTo?: number;
+}
+
+/**
+ * Upper bound of each composition's weighted explained intensity: the precursor plus every peak it can
+ * read, at the best weight any reading gives (full for an ion itself, less after small losses).
+ */
+export function compositionBounds(
+  nodes: readonly FragNode[],
+  compositionCount: number,
+  spectrum: CleanSpectrum,
+  rules: CompiledRuleSet,
+): Float64Array {
+  const precursorShare = spectrum.precursorIndex >= 0 ? spectrum.intensity[spectrum.precursorIndex]! : 0;
+  const bound = new Float64Array(compositionCount).fill(precursorShare);
+  const best = new Map<number, Float64Array>();
+  for (let v = 1; v < nodes.length; v++) {
+    const n = nodes[v]!;
+    let wts = best.get(n.peak);
+    if (!wts) {
+      wts = new Float64Array(compositionCount);
+      best.set(n.peak, wts);
+    }
+    for (const d of n.derivs) {
+      const combo = rules.lossCombos[d.combo]!;
+      const wgt = combo.crossRing >= 0 ? 1 : 0.7 ** combo.size;
+      if (wgt > wts[d.comp]!) wts[d.comp] = wgt;
+    }
+    for (const c of n.cations) if (wts[c.comp]! < 0.8) wts[c.comp] = 0.8;
+  }
+  for (const [peak, wts] of best) {
+    for (let ci = 0; ci < compositionCount; ci++) bound[ci]! += wts[ci]! * spectrum.intensity[peak]!;
+  }
+  return bound;
 }
 
 const topologyCache = new WeakMap<CompiledRuleSet, Map<string, Topology[]>>();
 
-function topologiesFor(rules: CompiledRuleSet, units: Uint8Array, maxCLinked: number): Topology[] {
+function topologiesFor(rules: CompiledRuleSet, units: Uint8Array, maxCLinked: number, limit: number): Topology[] {
   let cache = topologyCache.get(rules);
   if (!cache) {
     cache = new Map();
     topologyCache.set(rules, cache);
   }
-  const key = `${units.join(',')}|${maxCLinked}`;
+  const key = `${units.join(',')}|${maxCLinked}|${limit}`;
   let list = cache.get(key);
   if (!list) {
-    list = enumerateTopologies(units, rules.units, { maxCLinked, limit: 3000 });
+    list = enumerateTopologies(units, rules.units, { maxCLinked, limit });
+    if (cache.size > 20_000) cache.clear();
     cache.set(key, list);
   }
   return list;
 }
 
+/** One interpretation of a solved hypothesis, screened before its topologies are enumerated. */
+export interface ScreenedInterpretation {
+  readonly hypothesis: PrecursorHypothesis;
+  readonly graph: HypothesisGraph;
+  readonly tree: TreeSolution;
+  readonly interpretation: Interpretation;
+  /** Index of the composition in `graph.compositions`. */
+  readonly comp: number;
+  readonly readings: PeakReadings[];
+  readonly y0: { counts: Counts; charge: number };
+  /** Score terms that do not depend on the topology. */
+  readonly fixed: number;
+  /** Upper bound of any topology's score, sharpened by whether the bare Y0 or a cross-ring ion is seen. */
+  readonly screenScore: number;
+}
+
 /**
- * Scores every candidate structure of one precursor hypothesis: each interpretation (aglycone + composition)
- * in each topology. A candidate explains a peak when one of the peak's formula explanations is an ion the
- * candidate predicts (its Y-ion ladder, with small losses, radical Y ions in negative mode, cross-ring ions
- * of C-linked residues, oxonium and acylium ions); it is penalised for strong ions it predicts but misses.
+ * Screens the interpretations of one solved hypothesis: the peak readings of each composition, the score
+ * terms that do not depend on the topology, and a bound on the best topology's score.
  */
-export function evaluateCandidates(
+export function screenInterpretations(
   h: PrecursorHypothesis,
   hg: HypothesisGraph,
   tree: TreeSolution,
   spectrum: CleanSpectrum,
   rules: CompiledRuleSet,
   options: EvaluateOptions,
-): EvaluatedCandidate[] {
+): ScreenedInterpretation[] {
   const w = rules.rules.scoring;
-  const out: EvaluatedCandidate[] = [];
-  // Peaks with their nodes (every explanation, in or out of the tree).
   const byPeak = new Map<number, FragNode[]>();
   for (let v = 1; v < hg.nodes.length; v++) {
     const n = hg.nodes[v]!;
@@ -83,31 +155,12 @@ export function evaluateCandidates(
     if (list) list.push(n);
     else byPeak.set(n.peak, [n]);
   }
-  const precursorShare = spectrum.precursorIndex >= 0 ? spectrum.intensity[spectrum.precursorIndex]! : 0;
-  const crossSeen = hg.nodes.some((n) => n.derivs.some((d) => rules.lossCombos[d.combo]!.crossRing >= 0));
-
-  // Upper bound of each composition's weighted explained intensity: every peak it can read at full weight.
-  const bound = new Float64Array(hg.compositions.length).fill(precursorShare);
-  const peakWeight = new Float64Array(hg.compositions.length);
-  for (const [peak, nodes] of byPeak) {
-    peakWeight.fill(0);
-    for (const n of nodes) {
-      for (const d of n.derivs) {
-        const combo = rules.lossCombos[d.combo]!;
-        const wgt = combo.crossRing >= 0 ? 1 : 0.7 ** combo.size;
-        if (wgt > peakWeight[d.comp]!) peakWeight[d.comp] = wgt;
-      }
-      for (const c of n.cations) if (peakWeight[c.comp]! < 0.8) peakWeight[c.comp] = 0.8;
-    }
-    for (let ci = 0; ci < peakWeight.length; ci++) bound[ci]! += peakWeight[ci]! * spectrum.intensity[peak]!;
-  }
-  const window = options.window ?? 4;
-  const order = h.interpretations
-    .map((interp) => ({ interp, ci: hg.compositions.indexOf(interp.composition.units) }))
-    .filter((x) => x.ci >= 0)
-    .sort((a, b) => bound[b.ci]! - bound[a.ci]!);
-  for (const { interp, ci } of order) {
-    if (10 * bound[ci]! + 0.05 * tree.score < options.best.score - window) continue;
+  const bound = compositionBounds(hg.nodes, hg.compositions.length, spectrum, rules);
+  const readingsOf = new Map<number, PeakReadings[]>();
+  const out: ScreenedInterpretation[] = [];
+  for (const interp of h.interpretations) {
+    const ci = hg.compositions.indexOf(interp.composition.units);
+    if (ci < 0) continue;
     const compUnits = hg.compositions[ci]!;
     const aglCounts = interp.aglycone.kind === 'library' ? interp.aglycone.group.counts : interp.aglycone.counts;
     const cation = interp.aglycone.kind === 'library' && interp.aglycone.group.cation;
@@ -115,101 +168,184 @@ export function evaluateCandidates(
     const y0Counts = new Int32Array(NE);
     for (let e = 0; e < NE; e++) y0Counts[e] = aglCounts[e]! + (cation ? 0 : frag.counts[e]!);
     const y0 = { counts: y0Counts, charge: cation ? 1 : frag.charge };
-
-    // Per peak: which Y-loss keys / B keys it can be, under this composition.
-    type Reading = { node: FragNode; deriv?: Derivation; bKey?: number; water?: number };
-    const readings: { peak: number; intensity: number; list: Reading[] }[] = [];
-    for (const [peak, nodes] of byPeak) {
-      const list: Reading[] = [];
-      for (const n of nodes) {
-        for (const d of n.derivs) if (d.comp === ci) list.push({ node: n, deriv: d });
-        for (const c of n.cations) if (c.comp === ci) list.push({ node: n, bKey: removedKey(c.units), water: c.water });
-      }
-      if (list.length) readings.push({ peak, intensity: spectrum.intensity[peak]!, list });
+    let readings = readingsOf.get(ci);
+    if (!readings) {
+      readings = peakReadings(byPeak, ci, spectrum, rules);
+      readingsOf.set(ci, readings);
     }
+    const nUnits = compUnits.reduce((a, x) => a + x, 0);
+    const ppmTerm = (h.ppm / options.precursorPpm) ** 2 * 0.5;
+    const unknown =
+      interp.aglycone.kind === 'unknown'
+        ? w.unknownAglycone + w.unknownHeteroatom * (aglCounts[2]! + aglCounts[4]! + aglCounts[5]!)
+        : 0;
+    const fixed = 0.05 * tree.score - ppmTerm - unknown - 0.1 * nUnits;
+    // Bare Y0 (every unit lost) or a cross-ring ion: without either, every topology pays the Y0 penalty.
+    const allKey = removedKey(compUnits);
+    const aglyconeSeen = readings.some((r) => r.list.some((x) => (x.kind === 0 && x.key === allKey) || x.kind === 2));
+    const screenScore = 10 * bound[ci]! + fixed - (aglyconeSeen ? 0 : 2 * w.missingIon);
+    out.push({ hypothesis: h, graph: hg, tree, interpretation: interp, comp: ci, readings, y0, fixed, screenScore });
+  }
+  return out;
+}
 
-    for (const topo of topologiesFor(rules, compUnits, crossSeen ? 2 : 0)) {
-      let explained = precursorShare;
-      // Intensity read as an ion itself counts fully, read as that ion after small losses a little less.
-      let weighted = precursorShare;
-      const matches: CandidateMatch[] = [];
-      const seenLoss = new Map<number, number>(); // Y-loss key → intensity seen
-      let crossIntensity = 0;
-      for (const r of readings) {
-        let label: string | undefined;
-        let node: FragNode | undefined;
-        let bestWeight = 0;
-        let bestKey = -1;
-        for (const x of r.list) {
-          if (x.deriv) {
-            const d = x.deriv;
-            const key = removedKey(d.removed);
-            if (!topo.yLosses.has(key)) continue;
-            const combo = rules.lossCombos[d.combo]!;
-            if (combo.crossRing >= 0 && !topo.cLinked) continue;
-            const lbl = yLabel(d, compUnits, rules, key === topo.y0Loss && !topo.cLinked);
-            const weight = combo.crossRing >= 0 ? 1 : 0.7 ** combo.size;
-            if (label && weight <= bestWeight) continue;
-            label = lbl;
-            bestWeight = weight;
-            node = x.node;
-            bestKey = combo.crossRing >= 0 ? -2 : combo.size === 0 ? key : -1;
-            continue;
-          }
-          if (x.bKey !== undefined && topo.bUnits.has(x.bKey) && !label) {
-            label = bLabel(x.node, compUnits, rules, x.water ?? 0);
-            bestWeight = 0.8;
-            node = x.node;
-          }
-        }
-        if (label && node) {
-          explained += r.intensity;
-          weighted += r.intensity * bestWeight;
-          matches.push({ node, label });
-          if (bestKey >= 0) seenLoss.set(bestKey, (seenLoss.get(bestKey) ?? 0) + r.intensity);
-          if (bestKey === -2) crossIntensity += r.intensity;
-        }
+function peakReadings(
+  byPeak: Map<number, FragNode[]>,
+  ci: number,
+  spectrum: CleanSpectrum,
+  rules: CompiledRuleSet,
+): PeakReadings[] {
+  const readings: PeakReadings[] = [];
+  for (const [peak, nodes] of byPeak) {
+    const list: Reading[] = [];
+    for (const n of nodes) {
+      for (const d of n.derivs) {
+        if (d.comp !== ci) continue;
+        const combo = rules.lossCombos[d.combo]!;
+        const kind = combo.crossRing >= 0 ? 2 : combo.size === 0 ? 0 : 1;
+        list.push({ node: n, deriv: d, key: removedKey(d.removed), kind, weight: kind === 2 ? 1 : 0.7 ** combo.size });
       }
-      // Missing ions the topology predicts.
-      const missing: (number | 'Y0' | 'X')[] = [];
-      let penalty = 0;
-      const y0Seen = (seenLoss.get(topo.y0Loss) ?? 0) > 0;
-      const keyIonSeen = topo.cLinked ? crossIntensity > 0 || y0Seen : y0Seen;
-      if (!topo.cLinked && !y0Seen) {
-        penalty += 2 * w.missingIon;
-        missing.push('Y0');
+      for (const c of n.cations) {
+        if (c.comp === ci) list.push({ node: n, cation: c, key: removedKey(c.units), kind: 3, weight: 0.8 });
       }
-      if (topo.cLinked && crossIntensity === 0) {
-        penalty += 2 * w.missingIon;
-        missing.push('X');
+    }
+    if (list.length) {
+      list.sort((x, y) => y.weight - x.weight || x.kind - y.kind);
+      readings.push({ peak, intensity: spectrum.intensity[peak]!, list });
+    }
+  }
+  return readings;
+}
+
+/**
+ * Scores every topology of one screened interpretation. A candidate explains a peak when one of the peak's
+ * formula explanations is an ion it predicts (its Y-ion ladder, with small losses, radical Y ions in negative
+ * mode, cross-ring ions of C-linked residues, oxonium and acylium ions); it is penalised for strong ions it
+ * predicts but misses. Keeps the best few within `window` of the best score seen.
+ */
+export function evaluateTopologies(
+  s: ScreenedInterpretation,
+  spectrum: CleanSpectrum,
+  rules: CompiledRuleSet,
+  options: EvaluateOptions,
+): EvaluatedCandidate[] {
+  const w = rules.rules.scoring;
+  const window = options.window ?? 4;
+  const { hypothesis: h, interpretation: interp, readings, y0, fixed, tree } = s;
+  const hg = s.graph;
+  const compUnits = hg.compositions[s.comp]!;
+  const precursorShare = spectrum.precursorIndex >= 0 ? spectrum.intensity[spectrum.precursorIndex]! : 0;
+  const crossSeen = readings.some((r) => r.list.some((x) => x.kind === 2));
+  const chosen = new Int16Array(readings.length);
+  const perComposition: EvaluatedCandidate[] = [];
+  const seenLoss = new Set<number>();
+
+  const scoreTopology = (topo: Topology): number => {
+    let explained = precursorShare;
+    // Intensity read as an ion itself counts fully, read as that ion after small losses a little less.
+    let weighted = precursorShare;
+    let crossIntensity = 0;
+    let y0Seen = false;
+    seenLoss.clear();
+    for (let r = 0; r < readings.length; r++) {
+      const { list, intensity } = readings[r]!;
+      chosen[r] = -1;
+      for (let k = 0; k < list.length; k++) {
+        const x = list[k]!;
+        const ok = x.kind === 3 ? topo.bUnits.has(x.key) : topo.yLosses.has(x.key) && (x.kind !== 2 || topo.cLinked);
+        if (!ok) continue;
+        chosen[r] = k;
+        explained += intensity;
+        weighted += intensity * x.weight;
+        if (x.kind === 0) {
+          seenLoss.add(x.key);
+          if (x.key === topo.y0Loss) y0Seen = true;
+        } else if (x.kind === 2) crossIntensity += intensity;
+        break;
       }
-      for (const key of topo.yLosses) {
-        if (key === 0 || key === topo.y0Loss) continue;
-        if (!seenLoss.has(key)) {
-          penalty += 0.25 * w.missingIon;
-          missing.push(key);
-        }
-      }
-      const nUnits = compUnits.reduce((s, x) => s + x, 0);
-      const ppmTerm = (h.ppm / options.precursorPpm) ** 2 * 0.5;
-      const unknown = interp.aglycone.kind === 'unknown' ? 1.5 : 0;
-      const cPenalty = topo.cLinked ? 0.3 : 0; // O-glycosides are the commoner reading when evidence is equal
-      const score = 10 * weighted - penalty + 0.05 * tree.score - ppmTerm - unknown - 0.1 * nUnits - cPenalty;
+    }
+    // Strong ions the topology predicts but the spectrum lacks.
+    let penalty = 0;
+    let missingY = 0;
+    if (!topo.cLinked && !y0Seen) penalty += 2 * w.missingIon;
+    if (topo.cLinked && crossIntensity === 0) penalty += 2 * w.missingIon;
+    for (const key of topo.yLosses) {
+      if (key !== 0 && key !== topo.y0Loss && !seenLoss.has(key)) missingY++;
+    }
+    penalty += 0.25 * w.missingIon * missingY;
+    const keyIonSeen = topo.cLinked ? crossIntensity > 0 || y0Seen : y0Seen;
+    const cPenalty = topo.cLinked ? 0.3 : 0; // O-glycosides are the commoner reading when evidence is equal
+    const score = 10 * weighted - penalty + fixed - cPenalty;
+    if (score >= options.best.score - window) {
       if (score > options.best.score) options.best.score = score;
-      out.push({
+      perComposition.push({
         hypothesis: h,
         interpretation: interp,
         topology: topo,
         y0,
         explained: Math.min(1, explained),
         score,
-        matches,
-        missing,
+        readings,
+        chosen: chosen.slice(),
         keyIonSeen,
         treeScore: tree.score,
       });
     }
+    return score;
+  };
+
+  const maxC = crossSeen ? 2 : 0;
+  const instances = compUnits.reduce((a, x) => a + x, 0);
+  if (instances <= (options.enumerateUpTo ?? 4)) {
+    for (const topo of topologiesFor(rules, compUnits, maxC, options.maxTopologies ?? 400)) scoreTopology(topo);
+  } else {
+    searchTopologies(compUnits, rules.units, scoreTopology, { maxCLinked: maxC });
   }
+  // Keep the best few distinct stackings.
+  perComposition.sort((a, b) => b.score - a.score);
+  const out: EvaluatedCandidate[] = [];
+  const seen = new Set<string>();
+  for (const c of perComposition) {
+    if (out.length >= 12 || c.score < options.best.score - window) break;
+    if (seen.has(c.topology.notation)) continue;
+    seen.add(c.topology.notation);
+    out.push(c);
+  }
+  return out;
+}
+
+/** The peaks a candidate explains, with Domon–Costello style labels (built for reported candidates only). */
+export function candidateMatches(c: EvaluatedCandidate, rules: CompiledRuleSet): CandidateMatch[] {
+  const comp = c.interpretation.composition.units;
+  const out: CandidateMatch[] = [];
+  c.readings.forEach((r, i) => {
+    const k = c.chosen[i]!;
+    if (k < 0) return;
+    const x = r.list[k]!;
+    const label = x.deriv
+      ? yLabel(x.deriv, comp, rules, x.key === c.topology.y0Loss && !c.topology.cLinked)
+      : bLabel(x.cation!, rules);
+    out.push({ node: x.node, label });
+  });
+  return out;
+}
+
+/** Ions a candidate predicts but the spectrum lacks: 'Y0', 'X' (cross-ring ions) or Y-loss keys. */
+export function candidateMissing(c: EvaluatedCandidate): (number | 'Y0' | 'X')[] {
+  const seen = new Set<number>();
+  let cross = false;
+  c.readings.forEach((r, i) => {
+    const k = c.chosen[i]!;
+    if (k < 0) return;
+    const x = r.list[k]!;
+    if (x.kind === 0) seen.add(x.key);
+    if (x.kind === 2) cross = true;
+  });
+  const out: (number | 'Y0' | 'X')[] = [];
+  const t = c.topology;
+  if (!t.cLinked && !seen.has(t.y0Loss)) out.push('Y0');
+  if (t.cLinked && !cross) out.push('X');
+  for (const key of t.yLosses) if (key !== 0 && key !== t.y0Loss && !seen.has(key)) out.push(key);
   return out;
 }
 
@@ -258,9 +394,8 @@ function describeRemoved(removed: Uint8Array, rules: CompiledRuleSet, kind: 'acy
   return parts.join('+');
 }
 
-function bLabel(node: FragNode, comp: Uint8Array, rules: CompiledRuleSet, water: number): string {
-  const c = node.cations.find((x) => x.units.length === comp.length);
-  if (!c) return 'B';
+function bLabel(c: CationDerivation, rules: CompiledRuleSet): string {
+  const water = c.water;
   let residues = 0;
   let acyl = '';
   c.units.forEach((n, u) => {

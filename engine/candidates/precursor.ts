@@ -107,7 +107,11 @@ export function interpretPrecursor(
     charge === undefined ? Math.abs(t.charge) === 1 : Math.abs(t.charge) === Math.abs(charge),
   );
   const masses = rules.compositionMasses;
-  const aglFilter = createFormulaFilter({ rdbe: { electrons: 'even', min: 0 }, ratios: 'extended' });
+  const aglFilter = createFormulaFilter({
+    rdbe: { electrons: 'even', min: rules.rules.limits.unknownAglyconeMinRdbe },
+    ratios: 'extended',
+  });
+  const residueMasses = rules.units.filter((u) => u.kind === 'residue').map((u) => u.mass);
   const aglyconeKeys = new Set(rules.aglyconeGroups.map((g) => formulaKey(g.counts, g.cation ? 1 : 0)));
 
   // Whether the interpretation's aglycone is evidenced: its Y0 (or radical Y0) ion, or a cross-ring ion of a
@@ -185,6 +189,11 @@ export function interpretPrecursor(
               if (!aglFilter(c, 0)) return;
               const key = formulaKey(c, 0);
               if (aglyconeKeys.has(key)) return; // a library aglycone: already interpreted above
+              // An "aglycone" that still loses a residue in the spectrum is a Y ion, not the aglycone.
+              const y0Atoms = target + fragDeltaMass;
+              for (const m of residueMasses) {
+                if (hasPeak(spectrum, (y0Atoms - m - fz * ELECTRON_MASS) / Math.abs(fz), options)) return;
+              }
               add(ion, { kind: 'unknown', counts: Int32Array.from(c) }, k, c);
             },
             { charge: 0 },

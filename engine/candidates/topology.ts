@@ -39,7 +39,7 @@ interface TreeShape {
 export interface TopologyOptions {
   /** Also produce variants with up to this many C-linked residues on the aglycone. @defaultValue 0 */
   maxCLinked?: number;
-  /** Stop after this many topologies. @defaultValue 3000 */
+  /** Stop after this many topologies (the result then says `truncated`). @defaultValue 3000 */
   limit?: number;
 }
 
@@ -53,6 +53,8 @@ export function enumerateTopologies(
   options: TopologyOptions = {},
 ): Topology[] {
   const limit = options.limit ?? 3000;
+  // Forests are built lazily and the whole enumeration stops once `limit` topologies exist.
+  let budget = limit * 4;
   const residues: number[] = [];
   const acyls: number[] = [];
   composition.forEach((n, u) => {
@@ -67,6 +69,7 @@ export function enumerateTopologies(
     const hit = forestMemo.get(key);
     if (hit) return hit;
     const out: TreeShape[][] = [];
+    if (budget <= 0) return out;
     if (ms.length === 0) {
       out.push([]);
     } else {
@@ -84,7 +87,7 @@ export function enumerateTopologies(
             if (seen.has(text)) continue;
             seen.add(text);
             out.push(forest);
-            if (out.length > limit) break;
+            if (--budget <= 0) break;
           }
         }
       }
@@ -194,18 +197,111 @@ export function canonical(
   linkage: readonly ('O' | 'C' | 'ester')[],
   units: readonly Unit[],
 ): string {
+  const kids: number[][] = unit.map(() => []);
+  const roots: number[] = [];
+  parent.forEach((p, i) => (p < 0 ? roots : kids[p]!).push(i));
   const text = (i: number): string => {
-    const kids = [...parent.keys()].filter((j) => parent[j] === i).map(text).sort();
-    return `[${linkage[i] === 'C' ? 'C-' : ''}${units[unit[i]!]!.name}${kids.join('')}]`;
+    const inner = kids[i]!.map(text).sort().join('');
+    return `[${linkage[i] === 'C' ? 'C-' : ''}${units[unit[i]!]!.name}${inner}]`;
   };
-  return [...parent.keys()]
-    .filter((j) => parent[j] === -1)
-    .map(text)
-    .sort()
-    .join('');
+  return roots.map(text).sort().join('');
 }
 
-function makeTopology(
+/** Options of {@link searchTopologies}. */
+export interface SearchOptions {
+  /** Residues on the aglycone that may be C-linked. @defaultValue 0 */
+  maxCLinked?: number;
+  /** Improvement rounds per start. @defaultValue 12 */
+  maxRounds?: number;
+}
+
+/**
+ * Local search over topologies of a composition too large to enumerate: from a chain and from a star,
+ * repeatedly re-hangs one unit (or flips an aglycone-bound residue between O and C) while the score rises.
+ * Calls `score` for every topology it visits.
+ */
+export function searchTopologies(
+  composition: Uint8Array,
+  units: readonly Unit[],
+  score: (t: Topology) => number,
+  options: SearchOptions = {},
+): void {
+  const unit: number[] = [];
+  composition.forEach((n, u) => {
+    if (units[u]!.kind === 'residue') for (let k = 0; k < n; k++) unit.push(u);
+  });
+  const nRes = unit.length;
+  composition.forEach((n, u) => {
+    if (units[u]!.kind === 'acyl') for (let k = 0; k < n; k++) unit.push(u);
+  });
+  const n = unit.length;
+  const maxC = options.maxCLinked ?? 0;
+  const visited = new Map<string, number>();
+  const evaluate = (parent: number[], linkage: ('O' | 'C' | 'ester')[]): number => {
+    const notation = canonical(unit, parent, linkage, units);
+    const hit = visited.get(notation);
+    if (hit !== undefined) return hit;
+    const s = score(makeTopology(unit.slice(), parent.slice(), linkage.slice(), notation, composition.length));
+    visited.set(notation, s);
+    return s;
+  };
+  const createsCycle = (parent: number[], i: number, p: number): boolean => {
+    for (let j = p; j >= 0; j = parent[j]!) if (j === i) return true;
+    return false;
+  };
+  const chain = unit.map((_, i) => (i === 0 || i >= nRes ? (i >= nRes ? Math.max(0, nRes - 1) : -1) : i - 1));
+  const star = unit.map((_, i) => (i < nRes ? -1 : 0));
+  if (nRes === 0) {
+    chain.fill(-1);
+    star.fill(-1);
+  }
+  const baseLink = unit.map((_, i) => (i < nRes ? 'O' : 'ester') as 'O' | 'C' | 'ester');
+  for (const start of [chain, star]) {
+    let parent = start.slice();
+    let linkage = baseLink.slice();
+    let current = evaluate(parent, linkage);
+    for (let round = 0; round < (options.maxRounds ?? 12); round++) {
+      let bestScore = current;
+      let bestParent: number[] | undefined;
+      let bestLink: ('O' | 'C' | 'ester')[] | undefined;
+      for (let i = 0; i < n; i++) {
+        for (let p = -1; p < nRes; p++) {
+          if (p === i || p === parent[i] || (p >= 0 && createsCycle(parent, i, p))) continue;
+          const next = parent.slice();
+          next[i] = p;
+          const link = linkage.slice();
+          if (i < nRes && p >= 0) link[i] = 'O';
+          const s = evaluate(next, link);
+          if (s > bestScore + 1e-9) {
+            bestScore = s;
+            bestParent = next;
+            bestLink = link;
+          }
+        }
+        // O ↔ C on a residue bound to the aglycone.
+        if (i < nRes && parent[i] === -1 && units[unit[i]!]!.linkages.includes('C')) {
+          const link = linkage.slice();
+          link[i] = link[i] === 'C' ? 'O' : 'C';
+          if (link.filter((l) => l === 'C').length <= maxC) {
+            const s = evaluate(parent, link);
+            if (s > bestScore + 1e-9) {
+              bestScore = s;
+              bestParent = parent.slice();
+              bestLink = link;
+            }
+          }
+        }
+      }
+      if (!bestParent || !bestLink) break;
+      parent = bestParent;
+      linkage = bestLink;
+      current = bestScore;
+    }
+  }
+}
+
+/** Builds a topology's predictions (Y losses, B units) from its instances. */
+export function makeTopology(
   unit: number[],
   parent: number[],
   linkage: ('O' | 'C' | 'ester')[],

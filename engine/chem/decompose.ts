@@ -63,17 +63,15 @@ export interface Decomposition {
   readonly formula: Formula;
   /** Theoretical m/z of the measured species (its mass when neutral). */
   readonly mz: number;
-  /** Observed minus theoretical, in Da. */
-  readonly error: number;
-  /** Observed minus theoretical, in ppm of the theoretical value. */
+  /** Observed minus theoretical, in ppm of the theoretical value (the error in Da is observed − `mz`). */
   readonly ppm: number;
   /** Ring and double-bond equivalents of `formula`. */
   readonly rdbe: number;
 }
 
 /**
- * Called for each formula found, with its counts in element-table order (a buffer reused between calls:
- * copy it to keep it) and the mass of its atoms.
+ * Called for each formula found, with its counts in element-table order (a read-only buffer reused between
+ * calls: copy it to keep it, never write to it) and the mass of its atoms.
  */
 export type DecompositionVisitor = (counts: Int32Array, atomsMass: number) => void;
 
@@ -155,7 +153,9 @@ export function createDecomposer(options: DecomposerOptions = {}): Decomposer {
   let busy = false;
 
   /** Enumerates formulas with atom mass in [L, U] within the per-call bounds lo/hi. */
-  function enumerate(L: number, U: number, visit: DecompositionVisitor): number {
+  function enumerate(lower: number, U: number, visit: DecompositionVisitor): number {
+    // Every formula weighs at least one H atom: a window reaching down to 0 must not report the empty formula.
+    const L = lower < 0.5 ? 0.5 : lower;
     // Table bounds under this call's limits: tighter than the stored extremes when limits cut the table.
     let tMinEff = 0;
     let tMaxEff = 0;
@@ -234,7 +234,7 @@ export function createDecomposer(options: DecomposerOptions = {}): Decomposer {
           }
           if (!ok) continue;
         }
-        counts.fill(0);
+        // Inactive elements stay 0 from allocation; every active one is written here.
         for (let k = 0; k < K; k++) counts[oEl[k]!] = cur[k]!;
         for (let j = 0; j < T; j++) counts[tEl[j]!] = tCounts[i * T + j]!;
         found++;
@@ -336,6 +336,9 @@ export function createDecomposer(options: DecomposerOptions = {}): Decomposer {
     stageMass[staged++] = atoms;
   };
 
+  // Sorting buffers for decompose(), grown as needed and reused (typed arrays are costly to create per call).
+  let scratch = makeScratch(256);
+
   function decompose(mz: number, tol: Tolerance, options: DecomposeOptions = {}): Decomposition[] {
     const { ion } = options;
     const z = ion ? 0 : (options.charge ?? 0);
@@ -349,15 +352,15 @@ export function createDecomposer(options: DecomposerOptions = {}): Decomposer {
       stageFilter = undefined;
     }
     const n = staged;
-    const theo = new Float64Array(n);
-    const absErr = new Float64Array(n);
+    if (scratch.theo.length < n) scratch = makeScratch(Math.max(n, 2 * scratch.theo.length));
+    const { theo, absErr, order } = scratch;
     for (let i = 0; i < n; i++) {
       const atoms = stageMass[i]!;
       const t = ion ? mzFromNeutralMass(atoms, ion) : z === 0 ? atoms : (atoms - z * ELECTRON_MASS) / az;
       theo[i] = t;
       absErr[i] = Math.abs(mz - t);
     }
-    const order = sortByError(absErr, n);
+    sortByError(absErr, n, scratch);
     const limit = options.limit === undefined ? n : Math.max(0, Math.min(n, Math.floor(options.limit)));
     const out: Decomposition[] = [];
     for (let r = 0; r < limit; r++) {
@@ -365,7 +368,7 @@ export function createDecomposer(options: DecomposerOptions = {}): Decomposer {
       const counts = copyCounts(stageCounts, i * NE);
       const formula: Formula = { counts, charge: z };
       const t = theo[i]!;
-      out.push({ formula, mz: t, error: mz - t, ppm: ((mz - t) / t) * 1e6, rdbe: rdbe(formula) });
+      out.push({ formula, mz: t, ppm: ((mz - t) / t) * 1e6, rdbe: rdbe(formula) });
     }
     return out;
   }
@@ -493,18 +496,39 @@ function copyCounts(src: Int32Array, base: number): number[] {
   return out;
 }
 
+interface Scratch {
+  theo: Float64Array;
+  absErr: Float64Array;
+  order: Uint32Array;
+  bucket: Uint32Array;
+  start: Uint32Array;
+}
+
+function makeScratch(capacity: number): Scratch {
+  return {
+    theo: new Float64Array(capacity),
+    absErr: new Float64Array(capacity),
+    order: new Uint32Array(capacity),
+    bucket: new Uint32Array(capacity),
+    start: new Uint32Array(capacity + 1),
+  };
+}
+
 /**
- * Indices 0..n−1 ordered by `keys` ascending. Mass errors spread evenly over the tolerance window, so a
- * bucket pass followed by insertion sort (which then only fixes order within buckets) runs in about O(n).
+ * Writes into `scratch.order` the indices 0..n−1 ordered by `keys` ascending. Mass errors spread evenly over
+ * the tolerance window, so a bucket pass followed by insertion sort (which then only fixes order within
+ * buckets) runs in about O(n).
  */
-function sortByError(keys: Float64Array, n: number): Uint32Array {
-  const order = new Uint32Array(n);
-  if (n < 2) return order;
+function sortByError(keys: Float64Array, n: number, scratch: Scratch): void {
+  const { order, bucket, start } = scratch;
+  if (n < 2) {
+    order[0] = 0;
+    return;
+  }
   let max = 0;
   for (let i = 0; i < n; i++) if (keys[i]! > max) max = keys[i]!;
   const scale = max > 0 ? n / max : 0;
-  const bucket = new Uint32Array(n);
-  const start = new Uint32Array(n + 1);
+  start.fill(0, 0, n + 1);
   for (let i = 0; i < n; i++) {
     const b = Math.min(n - 1, Math.floor(keys[i]! * scale));
     bucket[i] = b;
@@ -522,7 +546,6 @@ function sortByError(keys: Float64Array, n: number): Uint32Array {
     }
     order[j + 1] = v;
   }
-  return order;
 }
 
 /** Sorts `idx[lo..hi]` by `keys[idx[i]]` ascending (quicksort with insertion sort; no comparator calls). */

@@ -118,7 +118,25 @@ export function buildHypothesisGraph(
   rules: CompiledRuleSet,
   options: GraphOptions,
 ): HypothesisGraph {
-  const w = rules.rules.scoring;
+  return finishGraph(matchHypothesis(h, spectrum, rules, options), spectrum, rules, options);
+}
+
+/** The rule-derived explanations of a hypothesis' peaks, before decomposition-only nodes and edges. */
+export interface MatchedHypothesis {
+  readonly hypothesis: PrecursorHypothesis;
+  /** Node 0 is the precursor. */
+  readonly nodes: FragNode[];
+  readonly compositions: Uint8Array[];
+  readonly cores: { counts: Counts; charge: number }[];
+}
+
+/** First, cheap phase of {@link buildHypothesisGraph}: peaks explained by rule derivations. */
+export function matchHypothesis(
+  h: PrecursorHypothesis,
+  spectrum: CleanSpectrum,
+  rules: CompiledRuleSet,
+  options: GraphOptions,
+): MatchedHypothesis {
   const units = rules.units;
   const nU = units.length;
   // Distinct compositions of the hypothesis.
@@ -262,9 +280,24 @@ export function buildHypothesisGraph(
     }
   });
 
-  const nodes: FragNode[] = [rootNode, ...found.values()];
+  return { hypothesis: h, nodes: [rootNode, ...found.values()], compositions: comps, cores };
+}
+
+/** Second phase of {@link buildHypothesisGraph}: decomposition-only nodes, order, colours and edges. */
+export function finishGraph(
+  m: MatchedHypothesis,
+  spectrum: CleanSpectrum,
+  rules: CompiledRuleSet,
+  options: GraphOptions,
+): HypothesisGraph {
+  const w = rules.rules.scoring;
+  const { hypothesis: h, cores, compositions: comps } = m;
+  const nodes = m.nodes.slice();
+  const nPeaks = spectrum.mz.length;
+  let base = 0;
+  for (let i = 0; i < nPeaks; i++) base = Math.max(base, spectrum.intensity[i]!);
   const explained = new Uint8Array(nPeaks);
-  for (const n of found.values()) explained[n.peak] = 1;
+  for (let i = 1; i < nodes.length; i++) explained[nodes[i]!.peak] = 1;
   const rootMz = h.mz;
   for (let p = 0; p < nPeaks; p++) {
     if (p === spectrum.precursorIndex || explained[p]) continue;

@@ -1,4 +1,4 @@
-import { describeKey, type EvaluatedCandidate } from '../candidates/evaluate.js';
+import { candidateMatches, candidateMissing, describeKey, type EvaluatedCandidate } from '../candidates/evaluate.js';
 import { countsMass, countsString, formulaKey, NE } from '../graph/counts.js';
 import { edgePrior } from '../graph/fragment-graph.js';
 import type { CompiledRuleSet } from '../rules/compile.js';
@@ -111,8 +111,9 @@ export function buildAnnotatedResult(
     if (alternatives.length > 0) {
       notes.push(`Same ion formula as ${alternatives.join(', ')}: MS/MS cannot tell these aglycones apart.`);
     }
-    if (c.missing.length > 0) {
-      const names = c.missing.slice(0, 6).map((m) => (m === 'X' ? 'cross-ring X ions' : m === 'Y0' ? 'Y0' : `Y(−${describeKey(m, compiled)})`));
+    const missing = candidateMissing(c);
+    if (missing.length > 0) {
+      const names = missing.slice(0, 6).map((m) => (m === 'X' ? 'cross-ring X ions' : m === 'Y0' ? 'Y0' : `Y(−${describeKey(m, compiled)})`));
       notes.push(`Predicted but not observed: ${names.join(', ')}.`);
     }
     const level = confidence(c, formulaCount, agl.kind === 'library', w.minExplained);
@@ -126,6 +127,7 @@ export function buildAnnotatedResult(
       },
       substituents: substituents(c, compiled),
       topology: `${agl.kind === 'library' ? primary : `<${countsString(agl.counts)}>`}${c.topology.notation}`,
+      ionType: c.interpretation.ion.name,
       formula: countsString(c.hypothesis.counts, c.hypothesis.charge),
       ppm: round(c.hypothesis.ppm, 2),
       explainedIntensity: round(c.explained, 4),
@@ -133,7 +135,7 @@ export function buildAnnotatedResult(
       confidenceLevel: level,
       ...(tied ? { tiedWithPrevious: true } : {}),
       source: 'rules',
-      matchedPeaks: c.matches
+      matchedPeaks: candidateMatches(c, compiled)
         .map((m) => ({
           mz: round(clean.mz[m.node.peak]!, 5),
           intensity: round(clean.intensity[m.node.peak]!, 4),

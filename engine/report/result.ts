@@ -28,6 +28,8 @@ export const CandidateResultSchema = z.object({
   substituents: z.array(SubstituentSchema),
   /** How residues are stacked, in Peel's stacking notation (docs/stacking-notation.md). */
   topology: z.string(),
+  /** Ion type of this reading of the precursor (same-formula alternatives may differ: [M]+ vs [M+H]+). */
+  ionType: z.string().optional(),
   formula: z.string(),
   ppm: z.number(),
   explainedIntensity: z.number().min(0).max(1),
@@ -65,6 +67,8 @@ export const ReasonSchema = z.object({ code: z.string(), message: z.string() });
 export const SpectrumResultSchema = z.object({
   id: z.string(),
   index: z.number().int().nonnegative().optional(),
+  /** Retention time in seconds, when the input gave one. */
+  rt: z.number().optional(),
   status: z.enum(['annotated', 'unassigned', 'error']),
   reason: ReasonSchema.optional(),
   precursor: z

@@ -146,7 +146,9 @@ export function loadRuleSet(text: string, options: LoadRuleSetOptions = {}): Rul
     for (const issue of parsed.error.issues) {
       const path = issue.path.filter((p): p is string | number => typeof p !== 'symbol');
       const missing = issue.code === 'invalid_type' && valueAt(data, path) === undefined;
-      push('error', missing ? 'missing-field' : zodCode(issue.code), path, issue.message);
+      if (missing)
+        push('error', 'missing-field', path, `"${String(path[path.length - 1])}" is required here`);
+      else push('error', zodCode(issue.code), path, issue.message);
     }
     return split(issues, undefined);
   }

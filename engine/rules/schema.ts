@@ -92,6 +92,10 @@ export const ScoringSchema = z
     unknownLoss: z.number().default(-0.5),
     /** Score of an edge whose loss is implausible (negative RDBE, H only, huge). */
     implausibleLoss: z.number().default(-4),
+    /** Prior cost of an aglycone in no library (an open-world reading needs more evidence). */
+    unknownAglycone: z.number().min(0).default(1.5),
+    /** Extra cost per N, S or P atom in an unknown aglycone (CHO aglycones are the rule among glycosides). */
+    unknownHeteroatom: z.number().min(0).default(0.7),
     /** Weight of a peak's (log) relative intensity in its node score. */
     intensity: z.number().default(1),
     /** Weight of the mass-error term (Gaussian log-likelihood in units of the tolerance). */
@@ -124,6 +128,8 @@ export const LimitsSchema = z
     maxAcyls: z.number().int().min(0).max(4).default(2),
     /** Candidates reported per spectrum. */
     maxCandidates: z.number().int().min(1).max(100).default(10),
+    /** Smallest RDBE of an unknown aglycone (phenolic aglycones have an aromatic ring: RDBE ≥ 4). */
+    unknownAglyconeMinRdbe: z.number().min(0).max(30).default(3),
   })
   .prefault({});
 

@@ -1,6 +1,12 @@
-import { type EvaluatedCandidate, evaluateCandidates } from '../candidates/evaluate.js';
+import {
+  compositionBounds,
+  type EvaluatedCandidate,
+  evaluateTopologies,
+  type ScreenedInterpretation,
+  screenInterpretations,
+} from '../candidates/evaluate.js';
 import { interpretPrecursor } from '../candidates/precursor.js';
-import { type HypothesisGraph, buildHypothesisGraph } from '../graph/fragment-graph.js';
+import { finishGraph, type HypothesisGraph, matchHypothesis } from '../graph/fragment-graph.js';
 import type { SpectrumResult } from '../report/result.js';
 import { buildAnnotatedResult, unassignedResult } from '../report/build-result.js';
 import type { CompiledRuleSet } from '../rules/compile.js';
@@ -8,6 +14,9 @@ import { cleanSpectrum } from '../spectrum/clean.js';
 import { type Spectrum, spectrumPolarity } from '../spectrum/spectrum.js';
 import type { TreeSolution } from '../tree/graph.js';
 import { solveTree } from '../tree/solve.js';
+
+/** Interpretations (aglycone + composition) whose topologies are enumerated per spectrum. */
+const MAX_INTERPRETATIONS = 6;
 
 /** A candidate structure a user supplies, in Peel's stacking notation (docs/stacking-notation.md). */
 export interface UserCandidate {
@@ -35,7 +44,8 @@ export interface SolvedHypothesis {
 /** Scores one spectrum: its fragmentation tree and ranked candidate structures. Never throws for bad data. */
 export function scoreSpectrum(spectrum: Spectrum, compiled: CompiledRuleSet, options: ScoreOptions = {}): SpectrumResult {
   try {
-    return scoreUnchecked(spectrum, compiled, options);
+    const result = scoreUnchecked(spectrum, compiled, options);
+    return spectrum.rt === undefined ? result : { ...result, rt: spectrum.rt };
   } catch (err) {
     // A fault in the engine must not sink the batch: the spectrum gets an error record.
     return {
@@ -72,19 +82,42 @@ function scoreUnchecked(spectrum: Spectrum, compiled: CompiledRuleSet, options: 
       `no aglycone plus glycan composition of rule set ${rules.name} ${rules.version} fits m/z ${spectrum.precursor.mz}`,
     );
   }
-  const solved: SolvedHypothesis[] = [];
+  const graphOptions = { fragmentPpm, floorDa, polarity, genericMinRelative: 0.02, genericPerPeak: 2 };
+  // Cheap phase first: rule-derived peak readings of every hypothesis, and the best score each could reach.
+  const matched = hypotheses
+    .map((h) => {
+      const m = matchHypothesis(h, clean, compiled, graphOptions);
+      const bound = compositionBounds(m.nodes, m.compositions.length, clean, compiled);
+      return { m, bound: Math.max(...bound) };
+    })
+    .sort((a, b) => b.bound - a.bound);
   const best = { score: Number.NEGATIVE_INFINITY };
-  for (const h of hypotheses) {
-    const graph = buildHypothesisGraph(h, clean, compiled, {
-      fragmentPpm,
-      floorDa,
-      polarity,
-      genericMinRelative: 0.02,
-      genericPerPeak: 2,
-    });
+  const window = 4;
+  const evaluateOptions = { precursorPpm, polarity, best, window };
+  // Solve the trees of the hypotheses that can still compete, and screen their interpretations.
+  const solved: SolvedHypothesis[] = [];
+  const screened: ScreenedInterpretation[] = [];
+  let bestScreen = Number.NEGATIVE_INFINITY;
+  for (const { m, bound } of matched) {
+    // The tree adds at most ~0.2 per node to a candidate's score (0.05 × ≤ 4 per edge).
+    if (10 * bound + 0.2 * m.nodes.length < bestScreen - window) continue;
+    const graph = finishGraph(m, clean, compiled, graphOptions);
     const tree = solveTree(graph.graph);
-    const candidates = evaluateCandidates(h, graph, tree, clean, compiled, { precursorPpm, polarity, best });
-    solved.push({ graph, tree, candidates });
+    const s = { graph, tree, candidates: [] as EvaluatedCandidate[] };
+    solved.push(s);
+    for (const x of screenInterpretations(m.hypothesis, graph, tree, clean, compiled, evaluateOptions)) {
+      screened.push(x);
+      if (x.screenScore > bestScreen) bestScreen = x.screenScore;
+    }
+  }
+  // Enumerate topologies for the best few interpretations only: their number grows fast with size.
+  screened.sort((a, b) => b.screenScore - a.screenScore);
+  let evaluated = 0;
+  for (const x of screened) {
+    if (evaluated >= MAX_INTERPRETATIONS || x.screenScore < best.score - window) break;
+    const s = solved.find((y) => y.graph === x.graph)!;
+    s.candidates.push(...evaluateTopologies(x, clean, compiled, evaluateOptions));
+    evaluated++;
   }
   return buildAnnotatedResult(spectrum, polarity, clean, solved, compiled);
 }

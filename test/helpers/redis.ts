@@ -27,7 +27,9 @@ export function freePort(): Promise<number> {
 
 function dockerReachable(): boolean {
   if (process.env.DOCKER_HOST) return true;
-  return existsSync('/var/run/docker.sock') || existsSync(join(process.env.HOME ?? '', '.docker/run/docker.sock'));
+  return (
+    existsSync('/var/run/docker.sock') || existsSync(join(process.env.HOME ?? '', '.docker/run/docker.sock'))
+  );
 }
 
 function hasBinary(name: string): boolean {
@@ -85,12 +87,18 @@ export async function startTestRedis(): Promise<TestRedis> {
     const child: ChildProcess = spawn(
       'redis-server',
       [
-        '--port', String(port),
-        '--bind', '127.0.0.1',
-        '--dir', dir,
-        '--save', '',
-        '--appendonly', 'no',
-        '--maxmemory-policy', 'noeviction',
+        '--port',
+        String(port),
+        '--bind',
+        '127.0.0.1',
+        '--dir',
+        dir,
+        '--save',
+        '',
+        '--appendonly',
+        'no',
+        '--maxmemory-policy',
+        'noeviction',
       ],
       { stdio: 'ignore' },
     );

@@ -46,6 +46,8 @@ export async function startTestService(opts: {
   env?: Record<string, string>;
   limits?: Partial<AppLimits>;
   workers?: boolean;
+  /** Another built sandboxed processor module for the scoring worker. */
+  processorFile?: string;
 }): Promise<TestService> {
   const config = parseConfig({
     REDIS_URL: opts.url,
@@ -64,7 +66,8 @@ export async function startTestService(opts: {
   await connectRedis(redis);
   const store = createStore({ redis, prefix: config.KEY_PREFIX });
   const rules = await loadDefaultRuleSet();
-  if (!rules.value || !rules.sha256) throw new Error(`default rule set invalid: ${JSON.stringify(rules.errors)}`);
+  if (!rules.value || !rules.sha256)
+    throw new Error(`default rule set invalid: ${JSON.stringify(rules.errors)}`);
   await store.putRuleSet(rules.sha256, rules.value);
   await store.activateRuleSet(rules.sha256);
   const qs = queueSettings(config);
@@ -95,7 +98,13 @@ export async function startTestService(opts: {
     workers: undefined,
     rulesetSha: rules.sha256,
     async startWorkers() {
-      svc.workers ??= await startWorkers({ config, logger, metrics, engineVersion: 'test' });
+      svc.workers ??= await startWorkers({
+        config,
+        logger,
+        metrics,
+        engineVersion: 'test',
+        ...(opts.processorFile ? { processorFile: opts.processorFile } : {}),
+      });
       return svc.workers;
     },
     async close() {
@@ -110,7 +119,11 @@ export async function startTestService(opts: {
 }
 
 /** Polls until `check` returns a value, or fails after `ms`. */
-export async function waitFor<T>(check: () => Promise<T | undefined | null | false>, ms = 20_000, step = 50): Promise<T> {
+export async function waitFor<T>(
+  check: () => Promise<T | undefined | null | false>,
+  ms = 20_000,
+  step = 50,
+): Promise<T> {
   const until = Date.now() + ms;
   for (;;) {
     const v = await check();
@@ -121,7 +134,10 @@ export async function waitFor<T>(check: () => Promise<T | undefined | null | fal
 }
 
 /** A simulated spectrum (simulated data, not a measurement): a glycoside-like ladder of peaks. */
-export function simulatedSpectrum(id: string, seed = 1): {
+export function simulatedSpectrum(
+  id: string,
+  seed = 1,
+): {
   id: string;
   precursor: { mz: number; charge: number };
   peaks: Array<[number, number]>;

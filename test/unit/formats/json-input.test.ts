@@ -1,6 +1,8 @@
 import { readFileSync } from 'node:fs';
+import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import { readJsonSpectra } from '../../../formats/json-input.js';
+import { SpectrumSchema } from '../../../engine/spectrum/spectrum.js';
+import { peaksValid, readJsonSpectra } from '../../../formats/json-input.js';
 import { chunked, collect, errors, expectSchemaValid, spectra } from './read-helpers.js';
 
 const FIXTURES = 'test/fixtures/json';
@@ -109,5 +111,40 @@ describe('readJsonSpectra', () => {
     const items = await collect(readJsonSpectra(chunked(big, 100), { maxDocumentLength: 1000 }));
     expect(summary(items)).toEqual(['too-large 0']);
     expect(errors(items)[0]!.issue.message).toContain('NDJSON');
+  });
+});
+
+describe('the peak-list fast path', () => {
+  // peaksValid may only accept what the schema accepts (the schema gives every error message).
+  const value = fc.oneof(
+    fc.double(),
+    fc.constantFrom(
+      0,
+      -0,
+      1,
+      Number.NaN,
+      Number.POSITIVE_INFINITY,
+      Number.NEGATIVE_INFINITY,
+      Number.MAX_VALUE,
+      5e-324,
+    ),
+    fc.string({ maxLength: 3 }),
+    fc.constant(null),
+    fc.boolean(),
+  );
+  const peak = fc.oneof(
+    fc.tuple(value, value),
+    fc.array(value, { maxLength: 4 }),
+    fc.tuple(fc.double({ min: 1e-3, max: 1e4, noNaN: true }), fc.double({ min: 0, max: 1e9, noNaN: true })),
+    value,
+  );
+  it('agrees with SpectrumSchema on random peak lists', () => {
+    fc.assert(
+      fc.property(fc.array(peak, { maxLength: 6 }), (peaks) => {
+        const schema = SpectrumSchema.safeParse({ id: 'a', precursor: { mz: 300 }, peaks }).success;
+        expect(peaksValid(peaks)).toBe(schema);
+      }),
+      { numRuns: 3000 },
+    );
   });
 });

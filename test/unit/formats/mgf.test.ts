@@ -189,6 +189,18 @@ describe('readMgf on bad input', () => {
     expect(items.map((i) => (i.kind === 'spectrum' ? i.spectrum.id : i.issue.code))).toEqual(['syntax', 'b']);
   });
 
+  it('stops keeping peaks beyond the schema limit of 200,000 per spectrum', async () => {
+    const lines = Array.from({ length: 200_001 }, (_, i) => `${100 + i * 0.001} 1`).join('\n');
+    const items = await read(
+      `BEGIN IONS\nTITLE=huge\nPEPMASS=300\n${lines}\nEND IONS\nBEGIN IONS\nTITLE=b\nPEPMASS=300\n1 1\nEND IONS\n`,
+      65536,
+    );
+    expect(items.map((i) => (i.kind === 'spectrum' ? i.spectrum.id : i.issue.code))).toEqual([
+      'too-large',
+      'b',
+    ]);
+  });
+
   it('rejects MS levels other than 2, and precursors beyond the schema', async () => {
     const items = await read(
       'BEGIN IONS\nTITLE=ms1\nMSLEVEL=1\nPEPMASS=300\n1 1\nEND IONS\nBEGIN IONS\nTITLE=big\nPEPMASS=25000\n1 1\nEND IONS\nBEGIN IONS\nTITLE=contra\nPOLARITY=negative\nCHARGE=2+\nPEPMASS=300\n1 1\nEND IONS\n',

@@ -118,6 +118,17 @@ describe('readMzml round trips through the test writer', () => {
   }
 });
 
+describe('readMzml on text encodings', () => {
+  it('keeps multi-byte UTF-8 ids whole across chunk edges', async () => {
+    const s = simulated(2, 5).map((x, i) => ({ ...x, id: `glucoside-β-${i} (simulé)` }));
+    const items = await read(writeMzml(s, { indexed: true }), 1);
+    expect(spectra(items).map((i) => i.spectrum.id)).toEqual([
+      'glucoside-β-0 (simulé)',
+      'glucoside-β-1 (simulé)',
+    ]);
+  });
+});
+
 describe('readMzml on bad input', () => {
   const three = simulated(3, 11).map((s, i) => ({
     ...s,
@@ -289,6 +300,11 @@ describe('readMzml on bad input', () => {
       50;
     const items = await collect(readMzml(chunked(text, 64), { maxSpectrumLength: limit }));
     expect(summary(items)).toEqual(['ok s0', 'too-large s1', 'ok s2']);
+  });
+
+  it('refuses more peaks than the schema allows (200,000)', async () => {
+    const many: [number, number][] = Array.from({ length: 200_001 }, (_, i) => [100 + i * 0.001, 1]);
+    await expectOnlyS1(writeMzml(three.map((s, i) => (i === 1 ? { ...s, peaks: many } : s))), 'too-large');
   });
 
   it('reports a truncated file inside a spectrum and between spectra', async () => {

@@ -5,6 +5,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { ELECTRON_MASS } from '../../../../engine/chem/elements.js';
 import { formulaMz, parseFormula } from '../../../../engine/chem/formula.js';
 import type { SpectrumResult } from '../../../../engine/report/result.js';
+import { loadDefaultRuleSet } from '../../../../formats/ruleset-file.js';
 import { createMzTabWriter, SME_COLUMNS, SMF_COLUMNS, SML_COLUMNS } from '../../../../formats/write-mztab.js';
 import { ALL, CYANIDIN, KAEMPFEROL, run } from './results-fixture.js';
 
@@ -153,7 +154,12 @@ describe('mzTab-M writer', () => {
     const p = parseMzTab(await run((out) => createMzTabWriter(out)));
     expect(p.tables.SML).toHaveLength(ALL.filter((r) => r.status === 'annotated').length);
     expect(p.tables.SMF).toHaveLength(ALL.filter((r) => r.precursor).length);
-    expect(p.tables.SME).toHaveLength(ALL.reduce((n, r) => n + r.candidates.length, 0));
+    // One evidence row per name that fits a candidate: its aglycone and each same-formula alternative.
+    const names = ALL.flatMap((r) => r.candidates).reduce(
+      (n, c) => n + 1 + c.aglycone.alternatives.length,
+      0,
+    );
+    expect(p.tables.SME).toHaveLength(names);
     const smeIds = new Set(p.tables.SME.map((r) => r.SME_ID));
     const smfIds = new Set(p.tables.SMF.map((r) => r.SMF_ID));
     for (const f of p.tables.SMF) {
@@ -210,7 +216,7 @@ describe('mzTab-M writer', () => {
     expect(sml.chemical_formula!.split('|')[0]).toBe('C21H20O11');
     expect(Number(sml.theoretical_neutral_mass!.split('|')[0])).toBeCloseTo(448.10056, 5);
     const ranks = p.tables.SME.filter((r) => r.opt_global_spectrum_id === KAEMPFEROL.id).map((r) => r.rank);
-    expect(ranks).toEqual(['1', '1', '3']);
+    expect(ranks).toEqual(['1', '1', '1', '1', '1', '3']);
     expect(p.tables.SME.find((r) => r.opt_global_spectrum_id === KAEMPFEROL.id)!.charge).toBe('1');
   });
 
@@ -249,10 +255,55 @@ describe('mzTab-M writer', () => {
     // 449.10784 + one electron (CODATA 2018) for the cation; 449.10784 - (1.00782503223 - electron) for [M+H]+.
     expect(masses[0]).toBeCloseTo(449.10784 + ELECTRON_MASS, 5);
     expect(masses[1]).toBeCloseTo(449.10784 - 1.00782503223 + ELECTRON_MASS, 5);
-    expect(p.tables.SME.map((r) => [r.adduct_ion, r.rank])).toEqual([
-      ['[M]+', '1'],
-      ['[M+H]+', '1'],
+    expect(p.tables.SME.map((r) => [r.chemical_name, r.adduct_ion, r.rank])).toEqual([
+      ['cyanidin + Hex', '[M]+', '1'],
+      ['kaempferol + Hex', '[M+H]+', '1'],
+      ['luteolin + Hex', '[M+H]+', '1'],
     ]);
+  });
+
+  it('with the aglycone library, reports each same-ion alternative as its own molecule and ion type', async () => {
+    // The engine merges cyanidin (flavylium, [M]+) and kaempferol/luteolin ([M+H]+) into one candidate when
+    // their Y0 ions are the same formula, C15H11O6+ (REFERENCE.md §3).
+    const merged: SpectrumResult = {
+      ...CYANIDIN,
+      id: 'MERGED',
+      candidates: [
+        {
+          ...CYANIDIN.candidates[0]!,
+          aglycone: { name: 'cyanidin', formula: 'C15H11O6+', alternatives: ['kaempferol', 'luteolin'] },
+        },
+      ],
+    };
+    const rules = (await loadDefaultRuleSet()).value!;
+    const p = parseMzTab(
+      await run((out) => createMzTabWriter(out, { aglycones: rules.aglycones }), [merged]),
+    );
+    const sml = p.tables.SML[0]!;
+    expect(sml.chemical_formula!.split('|')).toEqual(['C26H29O15+', 'C26H28O15', 'C26H28O15']);
+    expect(sml.adduct_ions).toBe('[M]+|[M+H]+');
+    const [cation, neutral] = sml.theoretical_neutral_mass!.split('|').map(Number);
+    // The neutral glycoside is the cation's atoms minus one H atom.
+    expect(cation! - neutral!).toBeCloseTo(1.00782503223, 6);
+    expect(p.tables.SME.map((r) => [r.database_identifier, r.chemical_formula, r.adduct_ion])).toEqual([
+      ['ruleset:cyanidin', 'C26H29O15+', '[M]+'],
+      ['ruleset:kaempferol', 'C26H28O15', '[M+H]+'],
+      ['ruleset:luteolin', 'C26H28O15', '[M+H]+'],
+    ]);
+    // Negative mode: kaempferol hexoside [M-H]-, aglycone ion C15H9O6-, alternatives of the same neutral formula.
+    const neg: SpectrumResult = {
+      ...KAEMPFEROL,
+      candidates: [
+        {
+          ...KAEMPFEROL.candidates[0]!,
+          aglycone: { ...KAEMPFEROL.candidates[0]!.aglycone, formula: 'C15H9O6-' },
+        },
+      ],
+    };
+    const q = parseMzTab(await run((out) => createMzTabWriter(out, { aglycones: rules.aglycones }), [neg]));
+    expect(q.tables.SME.map((r) => [r.chemical_formula, r.adduct_ion])).toEqual(
+      Array(4).fill(['C21H20O11', '[M-H]-']),
+    );
   });
 
   it('references mzML spectra by id and gives each run its own assay', async () => {
