@@ -155,7 +155,7 @@ export function createDecomposer(options: DecomposerOptions = {}): Decomposer {
   /** Enumerates formulas with atom mass in [L, U] within the per-call bounds lo/hi. */
   function enumerate(lower: number, U: number, visit: DecompositionVisitor): number {
     // Every formula weighs at least one H atom: a window reaching down to 0 must not report the empty formula.
-    const L = lower < 0.5 ? 0.5 : lower;
+    const L = Math.max(lower, 0.5);
     // Table bounds under this call's limits: tighter than the stored extremes when limits cut the table.
     let tMinEff = 0;
     let tMaxEff = 0;
@@ -316,18 +316,19 @@ export function createDecomposer(options: DecomposerOptions = {}): Decomposer {
   }
 
   // Result staging for decompose(): counts and atom masses of the formulas kept, grown as needed.
-  let stageCounts = new Int32Array(256 * NE);
-  let stageMass = new Float64Array(256);
+  // Allocated on first use: decomposers used only through forEach() never need them.
+  let stageCounts = new Int32Array(0);
+  let stageMass = new Float64Array(0);
   let staged = 0;
   let stageFilter: FormulaPredicate | undefined;
   let stageCharge = 0;
   const stage: DecompositionVisitor = (c, atoms) => {
     if (stageFilter && !stageFilter(c, stageCharge)) return;
     if (staged === stageMass.length) {
-      const grownCounts = new Int32Array(stageCounts.length * 2);
+      const grownCounts = new Int32Array(Math.max(64, stageMass.length * 2) * NE);
       grownCounts.set(stageCounts);
       stageCounts = grownCounts;
-      const grownMass = new Float64Array(stageMass.length * 2);
+      const grownMass = new Float64Array(Math.max(64, stageMass.length * 2));
       grownMass.set(stageMass);
       stageMass = grownMass;
     }
@@ -337,7 +338,7 @@ export function createDecomposer(options: DecomposerOptions = {}): Decomposer {
   };
 
   // Sorting buffers for decompose(), grown as needed and reused (typed arrays are costly to create per call).
-  let scratch = makeScratch(256);
+  let scratch = makeScratch(0);
 
   function decompose(mz: number, tol: Tolerance, options: DecomposeOptions = {}): Decomposition[] {
     const { ion } = options;

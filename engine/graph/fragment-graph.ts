@@ -211,16 +211,27 @@ export function matchHypothesis(
   };
 
   // Rule derivations: precursor (or core) − removed units − small-loss combination − H•, matched to peaks.
+  // Multi-loss combinations are tried on the aglycone ion (Y0) and the precursor only, radicals on Y0 only:
+  // phenolic aglycones shed H2O/CO/CO2 in series, intermediate Y ions seldom do.
   const tmp = new Int32Array(NE);
   const lost = new Int32Array(NE);
+  const peakMz = spectrum.mz;
   comps.forEach((compUnits, ci) => {
     const hasC = compUnits.some((n, u) => n > 0 && units[u]!.linkages.includes('C'));
+    const total = sum(compUnits);
     for (const removed of subMultisetsCached(compUnits)) {
       lost.fill(0);
-      for (let u = 0; u < nU; u++) if (removed[u]) for (let e = 0; e < NE; e++) lost[e]! += removed[u]! * units[u]!.counts[e]!;
+      let removedCount = 0;
+      for (let u = 0; u < nU; u++) {
+        if (!removed[u]) continue;
+        removedCount += removed[u]!;
+        for (let e = 0; e < NE; e++) lost[e]! += removed[u]! * units[u]!.counts[e]!;
+      }
       const lostMass = countsMass(lost);
-      const removedAny = removed.some((x) => x > 0);
-      cores.forEach((core, coreIdx) => {
+      const ladderEnd = removedCount === total || removedCount === 0;
+      for (let coreIdx = 0; coreIdx < cores.length; coreIdx++) {
+        const core = cores[coreIdx]!;
+        const z = core.charge;
         const coreMass = countsMass(core.counts);
         for (let k = 0; k < combos.length; k++) {
           const combo = combos[k]!;
@@ -228,28 +239,39 @@ export function matchHypothesis(
             // Cross-ring cleavage needs its C-linkable residue still in the fragment.
             const r = rules.crossRingResidue[combo.crossRing]!;
             if (!hasC || compUnits[r]! - removed[r]! < 1) continue;
-          }
-          for (let radical = 0; radical <= (options.polarity === 'negative' && !combo.radical ? 1 : 0); radical++) {
-            if (coreIdx === 0 && !removedAny && k === 0 && !radical) continue; // the precursor itself
+          } else if (combo.size > 1 && !ladderEnd) continue;
+          const maxRadical = options.polarity === 'negative' && !combo.radical && removedCount === total && combo.size <= 1 ? 1 : 0;
+          for (let radical = 0; radical <= maxRadical; radical++) {
+            if (coreIdx === 0 && removedCount === 0 && k === 0 && !radical) continue; // the precursor itself
             const atoms = coreMass - lostMass - combo.mass - radical * H_MASS;
-            peaksNear(atoms, core.charge, (p) => {
+            const mz = (atoms - z * ELECTRON_MASS) / Math.abs(z);
+            const tol = tolDa(mz, options.fragmentPpm, options.floorDa);
+            let lo = 0;
+            let hi = nPeaks;
+            while (lo < hi) {
+              const m = (lo + hi) >> 1;
+              if (peakMz[m]! < mz - tol) lo = m + 1;
+              else hi = m;
+            }
+            for (let p = lo; p < nPeaks && peakMz[p]! <= mz + tol; p++) {
+              if (p === spectrum.precursorIndex) continue;
               let ok = true;
               for (let e = 0; e < NE; e++) {
                 tmp[e] = core.counts[e]! - lost[e]! - combo.counts[e]! - (e === 1 ? radical : 0);
                 if (tmp[e]! < 0) ok = false;
               }
-              if (!ok) return;
-              nodeFor(p, tmp, core.charge).derivs.push({
+              if (!ok) continue;
+              nodeFor(p, tmp, z).derivs.push({
                 comp: ci,
                 removed,
                 combo: comboIndex[k]!,
                 radical: radical as 0 | 1,
                 core: coreIdx as 0 | 1,
               });
-            });
+            }
           }
         }
-      });
+      }
     }
     if (options.polarity === 'positive') {
       // Oxonium ions of one or two residues and acylium ions, [units + H]+; oxonium ions also − H2O.

@@ -2,6 +2,7 @@ import { pino } from 'pino';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createApp } from '../../../api/app.js';
+import { hashApiKey } from '../../../api/auth.js';
 import { type ConfigError, parseConfig } from '../../../api/config.js';
 import { checkEvictionPolicy, connectRedis, createRedis } from '../../../store/redis.js';
 import { createStore } from '../../../store/store.js';
@@ -104,5 +105,42 @@ describe('Redis checks', () => {
     expect(Date.now() - t0).toBeLessThan(2000);
     expect((await request(app).get('/livez')).status).toBe(200);
     await Promise.all([scoreQueue.close(), webhookQueue.close()]).catch(() => {});
+  });
+
+  it('rate limits per client: the client over its limit gets 429 problems, another client does not', async () => {
+    const prefix = testPrefix('rate');
+    const c = parseConfig({ REDIS_URL: redis.url, KEY_PREFIX: prefix });
+    const r = createRedis(redis.url, 'producer');
+    await connectRedis(r);
+    const store = createStore({ redis: r, prefix });
+    const qs = queueSettings(c);
+    const scoreQueue = createScoreQueue(r, qs);
+    const webhookQueue = createWebhookQueue(r, qs);
+    const keys = { a: 'pk_rate_test_a_000000', b: 'pk_rate_test_b_000000' };
+    const app = createApp({
+      store,
+      scoreQueue,
+      webhookQueue,
+      logger: pino({ level: 'silent' }),
+      apiKeys: [
+        { clientId: 'a', role: 'client', hash: hashApiKey(keys.a) },
+        { clientId: 'b', role: 'client', hash: hashApiKey(keys.b) },
+      ],
+      limits: { ratePerMinute: 3 },
+    });
+    try {
+      const get = (k: string) => request(app).get('/v1/batches').set('Authorization', `Bearer ${k}`);
+      for (let i = 0; i < 3; i++) expect((await get(keys.a)).status).toBe(200);
+      const over = await get(keys.a);
+      expect(over.status).toBe(429);
+      expect(over.body.code).toBe('rate-limited');
+      expect(over.headers['content-type']).toMatch(/problem\+json/);
+      expect(over.headers.ratelimit).toBeDefined();
+      expect((await get(keys.b)).status).toBe(200);
+    } finally {
+      await Promise.all([scoreQueue.close(), webhookQueue.close()]);
+      await store.deleteEverything();
+      r.disconnect();
+    }
   });
 });

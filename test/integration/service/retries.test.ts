@@ -5,7 +5,13 @@ import { pathToFileURL } from 'node:url';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { startTestRedis, type TestRedis, testPrefix } from '../../helpers/redis.js';
-import { auth, simulatedSpectrum, startTestService, type TestService, waitFor } from '../../helpers/service.js';
+import {
+  auth,
+  simulatedSpectrum,
+  startTestService,
+  type TestService,
+  waitFor,
+} from '../../helpers/service.js';
 
 // Scoring jobs that fail: a transient fault is retried (with backoff) and the batch completes; a chunk that
 // keeps failing ends as `processing-failed` error results for its spectra and the batch as `failed`, so no
@@ -18,7 +24,10 @@ const env = { CHUNK_SIZE: '5', JOB_ATTEMPTS: '3', JOB_BACKOFF_MS: '50' };
 
 function processor(name: string, body: string): string {
   const file = join(dir, `${name}.mjs`);
-  writeFileSync(file, `import processChunk from ${JSON.stringify(real)};\nexport default async function (job) {\n${body}\n  return processChunk(job);\n}\n`);
+  writeFileSync(
+    file,
+    `import processChunk from ${JSON.stringify(real)};\nexport default async function (job) {\n${body}\n  return processChunk(job);\n}\n`,
+  );
   return file;
 }
 
@@ -40,7 +49,10 @@ async function run(svc: TestService, n: number) {
     return b && ['completed', 'failed'].includes(b.state) ? b : null;
   }, 60_000);
   const res = await request(svc.app).get(`/v1/batches/${sub.body.id}/results`).set(auth('alpha'));
-  return { done, spectra: res.body.spectra as Array<{ id: string; status: string; reason?: { code: string } }> };
+  return {
+    done,
+    spectra: res.body.spectra as Array<{ id: string; status: string; reason?: { code: string } }>,
+  };
 }
 
 describe('failing scoring jobs', () => {
@@ -49,7 +61,10 @@ describe('failing scoring jobs', () => {
       url: redis.url,
       prefix: testPrefix('retry'),
       env,
-      processorFile: processor('flaky', "  if (job.data.start === 0 && job.attemptsMade < 2) throw new Error('simulated transient fault');"),
+      processorFile: processor(
+        'flaky',
+        "  if (job.data.start === 0 && job.attemptsMade < 2) throw new Error('simulated transient fault');",
+      ),
     });
     try {
       const { done, spectra } = await run(svc, 12);
@@ -68,7 +83,10 @@ describe('failing scoring jobs', () => {
       url: redis.url,
       prefix: testPrefix('broken'),
       env,
-      processorFile: processor('broken', "  if (job.data.start === 5) throw new Error('simulated permanent fault');"),
+      processorFile: processor(
+        'broken',
+        "  if (job.data.start === 5) throw new Error('simulated permanent fault');",
+      ),
     });
     try {
       const { done, spectra } = await run(svc, 12);
