@@ -156,7 +156,7 @@ export function screenInterpretations(
     else byPeak.set(n.peak, [n]);
   }
   const bound = compositionBounds(hg.nodes, hg.compositions.length, spectrum, rules);
-  const readingsOf = new Map<number, PeakReadings[]>();
+  const readingsOf = new Map<string, PeakReadings[]>();
   const out: ScreenedInterpretation[] = [];
   for (const interp of h.interpretations) {
     const ci = hg.compositions.indexOf(interp.composition.units);
@@ -168,10 +168,13 @@ export function screenInterpretations(
     const y0Counts = new Int32Array(NE);
     for (let e = 0; e < NE; e++) y0Counts[e] = aglCounts[e]! + (cation ? 0 : frag.counts[e]!);
     const y0 = { counts: y0Counts, charge: cation ? 1 : frag.charge };
-    let readings = readingsOf.get(ci);
+    // Fragments of an adduct ion descend from the precursor or from its core after the adduct loss.
+    const cores = hg.cores.map((k) => k.ions === undefined || k.ions.has(interp.ion.name));
+    const readingsKey = `${ci}|${cores.join(',')}`;
+    let readings = readingsOf.get(readingsKey);
     if (!readings) {
-      readings = peakReadings(byPeak, ci, spectrum, rules);
-      readingsOf.set(ci, readings);
+      readings = peakReadings(byPeak, ci, cores, spectrum, rules);
+      readingsOf.set(readingsKey, readings);
     }
     const nUnits = compUnits.reduce((a, x) => a + x, 0);
     const ppmTerm = (h.ppm / options.precursorPpm) ** 2 * 0.5;
@@ -192,6 +195,7 @@ export function screenInterpretations(
 function peakReadings(
   byPeak: Map<number, FragNode[]>,
   ci: number,
+  cores: readonly boolean[],
   spectrum: CleanSpectrum,
   rules: CompiledRuleSet,
 ): PeakReadings[] {
@@ -200,7 +204,7 @@ function peakReadings(
     const list: Reading[] = [];
     for (const n of nodes) {
       for (const d of n.derivs) {
-        if (d.comp !== ci) continue;
+        if (d.comp !== ci || !cores[d.core]) continue;
         const combo = rules.lossCombos[d.combo]!;
         const kind = combo.crossRing >= 0 ? 2 : combo.size === 0 ? 0 : 1;
         list.push({ node: n, deriv: d, key: removedKey(d.removed), kind, weight: kind === 2 ? 1 : 0.7 ** combo.size });

@@ -17,7 +17,7 @@ export interface Derivation {
   readonly removed: Uint8Array;
   readonly combo: number;
   readonly radical: 0 | 1;
-  readonly core: 0 | 1;
+  readonly core: number;
 }
 
 /** A sugar oxonium (B) or acylium ion explanation: the units it holds (positive mode). */
@@ -41,6 +41,14 @@ export interface FragNode {
   readonly generic: boolean;
 }
 
+/** An ion the fragments descend from: the precursor (core 0), or the precursor after its adduct loss. */
+export interface Core {
+  readonly counts: Counts;
+  readonly charge: number;
+  /** Ion types whose fragments descend from this core; undefined for the precursor itself (all). */
+  readonly ions: Set<string> | undefined;
+}
+
 /** Kinds of loss an edge can carry (for scoring and reporting). */
 export type LossKind = 'glycan' | 'small' | 'cross-ring' | 'adduct' | 'cation' | 'unknown' | 'implausible';
 
@@ -53,6 +61,8 @@ export interface HypothesisGraph {
   readonly compositions: readonly Uint8Array[];
   /** Per edge (in graph CSR order), the kind of loss. */
   readonly edgeKind: LossKind[];
+  /** The ions fragments descend from (`Derivation.core` indexes it). */
+  readonly cores: readonly Core[];
 }
 
 /** Tolerances and weights of {@link buildHypothesisGraph}. */
@@ -127,7 +137,7 @@ export interface MatchedHypothesis {
   /** Node 0 is the precursor. */
   readonly nodes: FragNode[];
   readonly compositions: Uint8Array[];
-  readonly cores: { counts: Counts; charge: number }[];
+  readonly cores: Core[];
 }
 
 /** First, cheap phase of {@link buildHypothesisGraph}: peaks explained by rule derivations. */
@@ -148,14 +158,20 @@ export function matchHypothesis(
       comps.push(it.composition.units);
     }
   }
-  // Cores: the precursor, and the precursor after its adduct loss or charge reduction.
-  const cores: { counts: Counts; charge: number }[] = [{ counts: h.counts, charge: h.charge }];
-  const adduct = rules.adductLosses.get(h.ion.name);
-  if (adduct || Math.abs(h.charge) > 1) {
-    const frag = fragmentDelta(h.ion, rules);
+  // Cores: the precursor, and the precursor after its adduct loss or charge reduction, for every ion type
+  // among the interpretations (one formula may be [M+HCOO]- of one molecule and [M-H]- of another).
+  const cores: Core[] = [{ counts: h.counts, charge: h.charge, ions: undefined }];
+  for (const it of h.interpretations) {
+    const ion = it.ion;
+    if (!rules.adductLosses.get(ion.name) && Math.abs(ion.charge) <= 1) continue;
+    const frag = fragmentDelta(ion, rules);
     const c = new Int32Array(NE);
-    for (let e = 0; e < NE; e++) c[e] = h.counts[e]! - h.ion.delta.counts[e]! + frag.counts[e]!;
-    if (c.every((x) => x >= 0)) cores.push({ counts: c, charge: frag.charge });
+    for (let e = 0; e < NE; e++) c[e] = h.counts[e]! - ion.delta.counts[e]! + frag.counts[e]!;
+    if (!c.every((x) => x >= 0)) continue;
+    const key = formulaKey(c, frag.charge);
+    const same = cores.find((k) => k.ions && formulaKey(k.counts, k.charge) === key);
+    if (same) same.ions!.add(ion.name);
+    else cores.push({ counts: c, charge: frag.charge, ions: new Set([ion.name]) });
   }
   const combos = rules.lossCombos.filter((c) => (options.polarity === 'positive' ? c.positive : c.negative));
   const H_MASS = 1.00782503223;
@@ -266,7 +282,7 @@ export function matchHypothesis(
                 removed,
                 combo: comboIndex[k]!,
                 radical: radical as 0 | 1,
-                core: coreIdx as 0 | 1,
+                core: coreIdx,
               });
             }
           }
@@ -391,7 +407,7 @@ export function finishGraph(
   const edgeKind: LossKind[] = new Array(edges.length);
   const fill = graph.inStart.slice(0, ordered.length);
   for (const e of edges) edgeKind[fill[e.to]!++] = e.kind;
-  return { graph, nodes: ordered, compositions: comps, edgeKind };
+  return { graph, nodes: ordered, compositions: comps, edgeKind, cores };
 }
 
 function nodeTerm(
