@@ -1,6 +1,6 @@
 import type { Server } from 'node:http';
 import type { Logger } from 'pino';
-import { peelVersion } from '../formats/package-root.js';
+import { engineVersion } from '../worker/engine-version.js';
 import { defaultRuleSetPath, loadRuleSetFile } from '../formats/ruleset-file.js';
 import { checkEvictionPolicy, connectRedis, createRedis } from '../store/redis.js';
 import { createStore } from '../store/store.js';
@@ -77,7 +77,7 @@ export async function startService(o: StartServiceOptions): Promise<RunningServi
       config,
       logger,
       metrics,
-      engineVersion: peelVersion(),
+      engineVersion: engineVersion(),
       ...(o.processorFile ? { processorFile: o.processorFile } : {}),
     });
   }

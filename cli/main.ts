@@ -5,7 +5,7 @@ import { type CliIo, type Command, println } from './io.js';
 /** Commands by their words; each module is loaded only when used. */
 const COMMANDS: Record<string, () => Promise<Command>> = {
   formulas: () => import('./commands/formulas.js').then((m) => m.formulasCommand),
-  // score: () => import('./commands/score.js').then((m) => m.scoreCommand),
+  score: () => import('./commands/score.js').then((m) => m.scoreCommand),
   'rules check': () => import('./commands/rules.js').then((m) => m.rulesCheckCommand),
   'rules diff': () => import('./commands/rules.js').then((m) => m.rulesDiffCommand),
 };
@@ -13,7 +13,7 @@ const COMMANDS: Record<string, () => Promise<Command>> = {
 const USAGE = `peel — rule-based fragmentation trees for glycosylated natural products (putative identifications)
 
 Usage:
-  peel score FILE... [--ppm N] [--rules PATH] [--candidates PATH] [--format json|ndjson|csv|mztab] [--out PATH]
+  peel score FILE... [--ppm N] [--precursor-ppm N] [--rules PATH] [--candidates PATH] [--format json|ndjson|csv|mztab] [--out PATH]
   peel formulas MZ... [--charge N] [--ion "[M+H]+"] [--ppm N] [--elements "C0-60 H0-120 N0-10 O0-30 P0-4 S0-4"] [--no-filters] [--json]
   peel rules check FILE
   peel rules diff OLD NEW

@@ -5,7 +5,7 @@ import { createServer } from 'node:http';
 import { pino } from 'pino';
 import { ConfigError, parseConfig } from '../api/config.js';
 import { createMetrics } from '../api/metrics.js';
-import { peelVersion } from '../formats/package-root.js';
+import { engineVersion } from './engine-version.js';
 import { checkEvictionPolicy, connectRedis, createRedis } from '../store/redis.js';
 import { startWorkers } from './runtime.js';
 
@@ -16,7 +16,7 @@ async function main(): Promise<void> {
   await connectRedis(probe);
   await checkEvictionPolicy(probe, config.EVICTION_POLICY_CHECK, (m) => logger.warn(m));
   const metrics = createMetrics();
-  const runtime = await startWorkers({ config, logger, metrics, engineVersion: peelVersion() });
+  const runtime = await startWorkers({ config, logger, metrics, engineVersion: engineVersion() });
 
   const server =
     config.WORKER_METRICS_PORT > 0

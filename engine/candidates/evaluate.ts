@@ -21,6 +21,8 @@ export interface EvaluatedCandidate {
   readonly y0: { counts: Counts; charge: number };
   readonly explained: number;
   readonly score: number;
+  /** The score without priors: candidates whose evidence is equal are ties, whatever their priors. */
+  readonly evidence: number;
   /** Every reading of every peak under this candidate's composition (shared by its topologies). */
   readonly readings: readonly PeakReadings[];
   /** Per entry of `readings`, the index of the reading this topology takes (-1: peak not explained). */
@@ -129,8 +131,10 @@ export interface ScreenedInterpretation {
   readonly comp: number;
   readonly readings: PeakReadings[];
   readonly y0: { counts: Counts; charge: number };
-  /** Score terms that do not depend on the topology. */
+  /** Score terms that do not depend on the topology (priors included). */
   readonly fixed: number;
+  /** The prior part of `fixed` (unit frequencies, ion type). */
+  readonly prior: number;
   /** Upper bound of any topology's score, sharpened by whether the bare Y0 or a cross-ring ion is seen. */
   readonly screenScore: number;
 }
@@ -182,12 +186,28 @@ export function screenInterpretations(
       interp.aglycone.kind === 'unknown'
         ? w.unknownAglycone + w.unknownHeteroatom * (aglCounts[2]! + aglCounts[4]! + aglCounts[5]!)
         : 0;
-    const fixed = 0.05 * tree.score - ppmTerm - unknown - 0.1 * nUnits;
+    // Priors: how common the units and the ion type are; they order readings the evidence cannot separate.
+    let prior = -(rules.rules.ionTypes.penalties[interp.ion.name] ?? 0);
+    compUnits.forEach((n, u) => {
+      prior += n * rules.unitPriors[u]!;
+    });
+    const fixed = 0.05 * tree.score - ppmTerm - unknown - 0.1 * nUnits + prior;
     // Bare Y0 (every unit lost) or a cross-ring ion: without either, every topology pays the Y0 penalty.
     const allKey = removedKey(compUnits);
     const aglyconeSeen = readings.some((r) => r.list.some((x) => (x.kind === 0 && x.key === allKey) || x.kind === 2));
     const screenScore = 10 * bound[ci]! + fixed - (aglyconeSeen ? 0 : 2 * w.missingIon);
-    out.push({ hypothesis: h, graph: hg, tree, interpretation: interp, comp: ci, readings, y0, fixed, screenScore });
+    out.push({
+      hypothesis: h,
+      graph: hg,
+      tree,
+      interpretation: interp,
+      comp: ci,
+      readings,
+      y0,
+      fixed,
+      prior,
+      screenScore,
+    });
   }
   return out;
 }
@@ -278,8 +298,12 @@ export function evaluateTopologies(
     }
     penalty += 0.25 * w.missingIon * missingY;
     const keyIonSeen = topo.cLinked ? crossIntensity > 0 || y0Seen : y0Seen;
-    const cPenalty = topo.cLinked ? 0.3 : 0; // O-glycosides are the commoner reading when evidence is equal
-    const score = 10 * weighted - penalty + fixed - cPenalty;
+    let topoPrior = 0;
+    for (let i = 0; i < topo.unit.length; i++) {
+      if (topo.linkage[i] === 'C') topoPrior -= w.cLinkage;
+      if (topo.linkage[i] === 'ester' && topo.parent[i] === -1) topoPrior -= w.acylOnAglycone;
+    }
+    const score = 10 * weighted - penalty + fixed + topoPrior;
     if (score >= options.best.score - window) {
       if (score > options.best.score) options.best.score = score;
       perComposition.push({
@@ -289,6 +313,7 @@ export function evaluateTopologies(
         y0,
         explained: Math.min(1, explained),
         score,
+        evidence: score - s.prior - topoPrior,
         readings,
         chosen: chosen.slice(),
         keyIonSeen,

@@ -142,7 +142,13 @@ export function interpretPrecursor(
     let h = byKey.get(key);
     if (!h) {
       const mz = (countsMass(counts) - ion.charge * ELECTRON_MASS) / Math.abs(ion.charge);
-      h = { ion, counts, charge: ion.charge, key, mz, ppm: ((precursorMz - mz) / mz) * 1e6, interpretations: [] };
+      // The smaller error of the reported precursor m/z and the precursor peak of the MS2 spectrum.
+      let ppm = ((precursorMz - mz) / mz) * 1e6;
+      if (spectrum.precursorIndex >= 0) {
+        const alt = ((spectrum.mz[spectrum.precursorIndex]! - mz) / mz) * 1e6;
+        if (Math.abs(alt) < Math.abs(ppm)) ppm = alt;
+      }
+      h = { ion, counts, charge: ion.charge, key, mz, ppm, interpretations: [] };
       byKey.set(key, h);
     }
     h.interpretations.push({ ion, aglycone: agl, composition: comp, compositionIndex: compIndex });
@@ -151,8 +157,11 @@ export function interpretPrecursor(
   for (const ion of ions) {
     const z = ion.charge;
     if (ion.multiplier !== 1) continue;
-    const atoms = precursorMz * Math.abs(z) + z * ELECTRON_MASS;
-    const tol = tolDa(atoms, options.precursorPpm, 0);
+    // The window spans the reported precursor m/z and the MS2 precursor peak (their errors differ).
+    const peakMz = spectrum.precursorIndex >= 0 ? spectrum.mz[spectrum.precursorIndex]! : precursorMz;
+    const spread = (Math.abs(peakMz - precursorMz) * Math.abs(z)) / 2;
+    const atoms = ((precursorMz + peakMz) / 2) * Math.abs(z) + z * ELECTRON_MASS;
+    const tol = tolDa(atoms, options.precursorPpm, 0) + spread;
     const mNeutral = atoms - ion.deltaMass;
     const flavylium = ion.name === '[M]+';
     // Library aglycones: M = aglycone + composition.

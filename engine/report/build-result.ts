@@ -106,7 +106,7 @@ export function buildAnnotatedResult(
     if (note && i === 0) cautions.push(note);
     const agl = c.interpretation.aglycone;
     const aglClass = agl.kind === 'library' ? r.classes[r.names.indexOf(primary)] : undefined;
-    const tied = i > 0 && Math.abs(ranked[i - 1]!.c.score - c.score) < w.tieMargin;
+    const tied = i > 0 && Math.abs(ranked[i - 1]!.c.evidence - c.evidence) < w.tieMargin;
     const notes: string[] = [];
     if (alternatives.length > 0) {
       notes.push(`Same ion formula as ${alternatives.join(', ')}: MS/MS cannot tell these aglycones apart.`);

@@ -69,6 +69,8 @@ export interface AglyconeGroup {
 export interface CompiledRuleSet {
   readonly rules: RuleSet;
   readonly units: readonly Unit[];
+  /** Prior score per occurrence of each unit. */
+  readonly unitPriors: readonly number[];
   readonly residueCount: number;
   /** Glycan compositions with at least one residue, ascending by mass. */
   readonly compositions: readonly Composition[];
@@ -220,6 +222,7 @@ export function compileRuleSet(rules: RuleSet): CompiledRuleSet {
   return {
     rules,
     units,
+    unitPriors: [...rules.residues.map((r) => r.prior), ...rules.acyls.map((a) => a.prior)],
     residueCount,
     compositions,
     compositionMasses: Float64Array.from(compositions, (c) => c.mass),

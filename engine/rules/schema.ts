@@ -29,6 +29,8 @@ export const ResidueRuleSchema = z.object({
   maxCount: z.number().int().min(0).max(10).default(4),
   /** Whether its oxonium (B) ion is expected in positive mode. */
   oxonium: z.boolean().default(true),
+  /** Prior score of each occurrence: how common the residue is among glycosides (breaks evidence ties only). */
+  prior: z.number().min(-5).max(5).default(0),
   source: Source,
 });
 
@@ -40,6 +42,8 @@ export const AcylRuleSchema = z.object({
   maxCount: z.number().int().min(0).max(4).default(2),
   /** Whether its acylium ion (RCO⁺) is expected in positive mode. */
   acylium: z.boolean().default(false),
+  /** Prior score of each occurrence (breaks evidence ties only). */
+  prior: z.number().min(-5).max(5).default(0),
   source: Source,
 });
 
@@ -100,6 +104,10 @@ export const ScoringSchema = z
     intensity: z.number().default(1),
     /** Weight of the mass-error term (Gaussian log-likelihood in units of the tolerance). */
     massError: z.number().default(1),
+    /** Prior cost of an acyl group esterified to the aglycone itself rather than to a sugar. */
+    acylOnAglycone: z.number().min(0).default(0.5),
+    /** Prior cost of a C-glycosidic residue (O-glycosides are commoner when the evidence is equal). */
+    cLinkage: z.number().min(0).default(0.3),
     /** Penalty for each strong ion a candidate predicts that is missing. */
     missingIon: z.number().default(1.5),
     /** Minimum fraction of the spectrum's intensity a candidate must explain to be reported. */
@@ -159,7 +167,12 @@ export const RuleSetSchema = z.object({
   tolerances: TolerancesSchema,
   /** Element ranges for formulas of unknown aglycones and of precursors outside the library. */
   elements: z.object({ aglycone: ElementRanges, precursor: ElementRanges }),
-  ionTypes: z.object({ positive: z.array(z.string()).min(1), negative: z.array(z.string()).min(1) }),
+  ionTypes: z.object({
+    positive: z.array(z.string()).min(1),
+    negative: z.array(z.string()).min(1),
+    /** Prior cost of reading a precursor as this ion type (metal adducts are less common than protonation). */
+    penalties: z.record(z.string(), z.number().min(0).max(10)).default({}),
+  }),
   residues: z.array(ResidueRuleSchema).min(1),
   acyls: z.array(AcylRuleSchema).default([]),
   smallLosses: z.array(SmallLossRuleSchema).default([]),
