@@ -160,7 +160,7 @@ export function readErrorResult(item: Extract<ReadItem, { kind: 'error' }>, inde
   const p = item.issue.position;
   const where = [
     p.file !== undefined ? basename(p.file) : undefined,
-    p.line !== undefined ? `line ${p.line}` : undefined,
+    p.line !== undefined && !item.issue.message.includes(`line ${p.line}`) ? `line ${p.line}` : undefined,
     p.path !== undefined && p.path !== '' ? p.path : undefined,
   ].filter((x) => x !== undefined);
   return {

@@ -263,6 +263,7 @@ export function evaluateTopologies(
   const chosen = new Int16Array(readings.length);
   const perComposition: EvaluatedCandidate[] = [];
   const seenLoss = new Set<number>();
+  const seenCross = new Set<number>();
 
   const scoreTopology = (topo: Topology): number => {
     let explained = precursorShare;
@@ -271,6 +272,7 @@ export function evaluateTopologies(
     let crossIntensity = 0;
     let y0Seen = false;
     seenLoss.clear();
+    seenCross.clear();
     for (let r = 0; r < readings.length; r++) {
       const { list, intensity } = readings[r]!;
       chosen[r] = -1;
@@ -284,15 +286,27 @@ export function evaluateTopologies(
         if (x.kind === 0) {
           seenLoss.add(x.key);
           if (x.key === topo.y0Loss) y0Seen = true;
-        } else if (x.kind === 2) crossIntensity += intensity;
+        } else if (x.kind === 2) {
+          crossIntensity += intensity;
+          seenCross.add(rules.lossCombos[x.deriv!.combo]!.crossRing);
+        }
         break;
       }
     }
     // Strong ions the topology predicts but the spectrum lacks.
     let penalty = 0;
     let missingY = 0;
-    if (!topo.cLinked && !y0Seen) penalty += 2 * w.missingIon;
-    if (topo.cLinked && crossIntensity === 0) penalty += 2 * w.missingIon;
+    // Y0 (the aglycone with its C-linked residues) is expected whenever something can be lost to reach it.
+    if (topo.y0Loss !== 0 && !y0Seen) penalty += 2 * w.missingIon;
+    if (topo.cLinked) {
+      if (crossIntensity === 0) penalty += 2 * w.missingIon;
+      for (let i = 0; i < topo.unit.length; i++) {
+        if (topo.linkage[i] !== 'C') continue;
+        for (const x of rules.diagnosticCrossRing.get(topo.unit[i]!) ?? []) {
+          if (!seenCross.has(x)) penalty += 0.5 * w.missingIon;
+        }
+      }
+    }
     for (const key of topo.yLosses) {
       if (key !== 0 && key !== topo.y0Loss && !seenLoss.has(key)) missingY++;
     }

@@ -83,6 +83,8 @@ export interface CompiledRuleSet {
   readonly crossRingResidue: readonly number[];
   /** Mass of each cross-ring loss. */
   readonly crossRingMasses: readonly number[];
+  /** Per residue index, the cross-ring rules whose ions are diagnostic when it is C-linked. */
+  readonly diagnosticCrossRing: ReadonlyMap<number, readonly number[]>;
   /** Loss combinations, the empty one first. */
   readonly lossCombos: readonly LossCombo[];
   /** `comboNested[a * n + b]`: combination a is contained in combination b. */
@@ -231,6 +233,7 @@ export function compileRuleSet(rules: RuleSet): CompiledRuleSet {
     smallLossNames: rules.smallLosses.map((l) => l.name),
     crossRingNames: rules.crossRing.map((x) => x.name),
     crossRingResidue,
+    diagnosticCrossRing: diagnosticMap(rules, crossRingResidue),
     crossRingMasses: rules.crossRing.map((x, i) => countsMass(formulaCounts(x.formula, `crossRing[${i}]`).counts)),
     lossCombos,
     comboNested,
@@ -239,6 +242,16 @@ export function compileRuleSet(rules: RuleSet): CompiledRuleSet {
     precursorDecomposer: createDecomposer({ ranges: ranges(rules.elements.precursor) }),
     aglyconeRanges,
   };
+}
+
+function diagnosticMap(rules: RuleSet, residueOf: readonly number[]): Map<number, number[]> {
+  const out = new Map<number, number[]>();
+  rules.crossRing.forEach((x, i) => {
+    if (!x.diagnostic) return;
+    const r = residueOf[i]!;
+    out.set(r, [...(out.get(r) ?? []), i]);
+  });
+  return out;
 }
 
 function enumerateCompositions(units: Unit[], residueCount: number, maxRes: number, maxAcyl: number): Composition[] {

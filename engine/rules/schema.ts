@@ -66,6 +66,8 @@ export const CrossRingRuleSchema = z.object({
   residue: Name,
   /** Whether the same loss plus one water is also expected. */
   withWater: z.boolean().default(true),
+  /** A key ion of a C-linked residue: a candidate with that residue C-linked is penalised when it is missing. */
+  diagnostic: z.boolean().default(false),
   source: Source,
 });
 
