@@ -35,6 +35,8 @@ export function createApp(deps: AppDeps): Express {
         return id;
       },
       customAttributeKeys: { reqId: 'requestId' },
+      // Every line logged through req.log carries the request id as `requestId`.
+      quietReqLogger: true,
       // No headers in logs: they carry API keys.
       serializers: {
         req: (req: { id: unknown; method: string; url: string }) => ({

@@ -4,6 +4,8 @@ const BENCHES: Record<string, () => Promise<{ run: (args: string[]) => Promise<v
   'mzml-memory': () => import('./mzml-memory.js'),
   quality: () => import('./quality.js'),
   e2e: () => import('./e2e.js'),
+  'score-speed': () => import('./score-speed.js'),
+  'score-memory': () => import('./score-memory.js'),
 };
 
 const [name, ...args] = process.argv.slice(2);

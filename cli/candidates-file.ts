@@ -165,7 +165,8 @@ export function checkStructure(text: string, names?: KnownNames): StructureProbl
     const formula = text.slice(1, close);
     try {
       const f = parseFormula(formula);
-      if (f.charge < 0) problem('bad-formula', 1, `the aglycone formula ${formula} carries a negative charge`);
+      if (f.charge < 0)
+        problem('bad-formula', 1, `the aglycone formula ${formula} carries a negative charge`);
     } catch (err) {
       problem('bad-formula', 1, `"${formula}" is not a formula: ${(err as Error).message}`);
     }
@@ -175,8 +176,14 @@ export function checkStructure(text: string, names?: KnownNames): StructureProbl
     const name = text.slice(0, end).trim();
     if (name.length === 0) {
       problem('structure-syntax', 0, 'a structure starts with an aglycone name or <FORMULA>');
-    } else if (!NAME_CHARS.test(name) || name.includes(']')) {
-      problem('structure-syntax', 0, `"${name}" is not an aglycone name (letters, digits, spaces and , ' - _ ( ))`);
+    } else if (text.slice(0, end).includes(']')) {
+      problem('structure-syntax', text.indexOf(']'), 'a "]" without its "["');
+    } else if (!NAME_CHARS.test(name)) {
+      problem(
+        'structure-syntax',
+        0,
+        `"${name}" is not an aglycone name (letters, digits, spaces and , ' - _ ( ))`,
+      );
     } else if (names && !names.aglycones.has(name)) {
       problem(
         'unknown-aglycone',
@@ -210,9 +217,14 @@ export function checkStructure(text: string, names?: KnownNames): StructureProbl
             problem('not-c-linkable', at, `the rule set does not allow ${name} as a C-glycoside`);
           }
         } else if (names.acyls.has(name)) {
-          if (cLinked) problem('not-c-linkable', at, `${name} is an acyl group (ester), not a C-linked sugar`);
+          if (cLinked)
+            problem('not-c-linkable', at, `${name} is an acyl group (ester), not a C-linked sugar`);
         } else {
-          problem('unknown-residue', at, `"${name}" is neither a residue nor an acyl group of the rule set${suggest(name)}`);
+          problem(
+            'unknown-residue',
+            at,
+            `"${name}" is neither a residue nor an acyl group of the rule set${suggest(name)}`,
+          );
         }
       }
     }
@@ -300,7 +312,10 @@ class Collector {
     for (const p of problems) this.issue('error', p.code, p.message, { ...at(p.offset), path });
     if (problems.length > 0) return;
     let seen = this.seen.get(id);
-    if (!seen) this.seen.set(id, (seen = new Set()));
+    if (!seen) {
+      seen = new Set();
+      this.seen.set(id, seen);
+    }
     if (seen.has(candidate.structure)) {
       this.issue(
         'warning',
@@ -313,9 +328,9 @@ class Collector {
     seen.add(candidate.structure);
     if (id === '*') this.all.push(candidate);
     else {
-      let list = this.spectra.get(id);
-      if (!list) this.spectra.set(id, (list = []));
-      list.push(candidate);
+      const list = this.spectra.get(id);
+      if (list) list.push(candidate);
+      else this.spectra.set(id, [candidate]);
     }
   }
 
@@ -349,7 +364,8 @@ function parseTsv(text: string, c: Collector): void {
     const cells = line.split('\t');
     if (first) {
       first = false;
-      if (cells[0]!.trim().toLowerCase() === 'spectrum_id' && cells[1]?.trim().toLowerCase() === 'structure') return;
+      if (cells[0]!.trim().toLowerCase() === 'spectrum_id' && cells[1]?.trim().toLowerCase() === 'structure')
+        return;
     }
     if (cells.length < 2 || cells.length > 3) {
       c.issue(
@@ -392,7 +408,11 @@ function parseYaml(text: string, c: Collector): void {
     return { line: p.line, column: p.col };
   };
   for (const e of doc.errors) {
-    c.issue('error', e.code === 'DUPLICATE_KEY' ? 'duplicate-key' : 'syntax', e.message.split('\n')[0]!, pos(e.pos[0]));
+    let message = e.message.split('\n')[0]!;
+    // Brackets of the stacking notation end a YAML flow list: `[cyanidin[Hex]]` must be `["cyanidin[Hex]"]`.
+    if (/flow/i.test(message))
+      message += ' (inside [ ] or { } write each structure in quotes: ["cyanidin[Hex]"])';
+    c.issue('error', e.code === 'DUPLICATE_KEY' ? 'duplicate-key' : 'syntax', message, pos(e.pos[0]));
   }
   if (doc.errors.length > 0) return;
   let data: unknown;
@@ -413,10 +433,15 @@ function parseYaml(text: string, c: Collector): void {
       const path = issue.path.filter((p): p is string | number => typeof p !== 'symbol');
       if (issue.code === 'unrecognized_keys') {
         for (const key of issue.keys) {
-          c.issue('error', 'unknown-key', `unknown key "${key}" (known: version, all, spectra; an entry: structure, name)`, {
-            ...pos(locate(doc.contents, [...path, key], true)),
-            path: formatPath([...path, key]),
-          });
+          c.issue(
+            'error',
+            'unknown-key',
+            `unknown key "${key}" (known: version, all, spectra; an entry: structure, name)`,
+            {
+              ...pos(locate(doc.contents, [...path, key], true)),
+              path: formatPath([...path, key]),
+            },
+          );
         }
       } else {
         const message =
@@ -445,7 +470,12 @@ function parseYaml(text: string, c: Collector): void {
       if (typeof e === 'string') c.add(id, { structure: e }, formatPath(at), inScalar(at));
       else {
         const p = [...at, 'structure'];
-        c.add(id, e.name ? { structure: e.structure, name: e.name } : { structure: e.structure }, formatPath(p), inScalar(p));
+        c.add(
+          id,
+          e.name ? { structure: e.structure, name: e.name } : { structure: e.structure },
+          formatPath(p),
+          inScalar(p),
+        );
       }
     });
   };
@@ -460,7 +490,9 @@ function locate(root: unknown, path: readonly (string | number)[], key: boolean)
   for (let k = 0; k < path.length; k++) {
     const step = path[k]!;
     if (isMap(node)) {
-      const pair = node.items.find((p) => isPair(p) && isScalar(p.key) && String(p.key.value) === String(step));
+      const pair = node.items.find(
+        (p) => isPair(p) && isScalar(p.key) && String(p.key.value) === String(step),
+      );
       if (!pair) return best;
       const keyNode = pair.key as Node;
       if (k === path.length - 1 && key) return keyNode.range?.[0] ?? best;
@@ -532,7 +564,9 @@ export async function loadCandidatesFile(
 
 /** One issue as a line: `file:line:column: error code path: message`. */
 export function formatCandidatesIssue(issue: CandidatesIssue): string {
-  const where = [issue.file ?? '<candidates>', issue.line, issue.column].filter((x) => x !== undefined).join(':');
+  const where = [issue.file ?? '<candidates>', issue.line, issue.column]
+    .filter((x) => x !== undefined)
+    .join(':');
   return `${where}: ${issue.severity} ${issue.code}${issue.path ? ` ${issue.path}` : ''}: ${issue.message}`;
 }
 

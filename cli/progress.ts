@@ -45,8 +45,7 @@ export function createProgress(options: ProgressOptions): Progress {
   let last = Number.NEGATIVE_INFINITY;
   let drawn = false;
   let current: { name: string; ordinal: number; total: number; size?: number } | undefined;
-  const columns = () =>
-    options.columns ?? ((options.stream as { columns?: number }).columns || 80);
+  const columns = () => options.columns ?? ((options.stream as { columns?: number }).columns || 80);
 
   const draw = (counts: ProgressCounts, bytesRead?: number) => {
     const seconds = Math.max(1e-3, (now() - t0) / 1000);

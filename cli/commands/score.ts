@@ -105,7 +105,6 @@ export function parseScoreFlags(argv: readonly string[]): ScoreFlags {
         flags.candidates = value();
         break;
       case '--out':
-      case '-o':
         flags.out = value();
         break;
       case '--format': {
@@ -117,12 +116,14 @@ export function parseScoreFlags(argv: readonly string[]): ScoreFlags {
         break;
       }
       default:
-        if (arg.startsWith('-') && arg !== '-') throw new UsageError(`unknown option ${arg}\n\n${SCORE_USAGE}`);
+        if (arg.startsWith('-') && arg !== '-')
+          throw new UsageError(`unknown option ${arg}\n\n${SCORE_USAGE}`);
         flags.files.push(arg);
     }
   }
   if (flags.files.length === 0) throw new UsageError(`give at least one spectrum file\n\n${SCORE_USAGE}`);
-  if (flags.files.filter((f) => f === '-').length > 1) throw new UsageError('standard input ("-") can be read once');
+  if (flags.files.filter((f) => f === '-').length > 1)
+    throw new UsageError('standard input ("-") can be read once');
   return flags;
 }
 
@@ -139,6 +140,7 @@ export interface ScoreFilesOptions {
   /** Spectrum files; `-` is `stdin`. */
   files: readonly string[];
   compiled: CompiledRuleSet;
+  /** The rule set's reference (the caller passes it to `writer.begin`). */
   ruleset: RuleSetRef;
   writer: ResultsWriter;
   /** Tolerances (unset ones come from the rule set). */
@@ -180,7 +182,9 @@ export function readErrorResult(item: Extract<ReadItem, { kind: 'error' }>, inde
  * Streams every file through the reader, scores each spectrum in this process and hands each result to the
  * writer as soon as it exists: memory stays flat in the number of spectra. `begin` and `end` of the writer
  * are the caller's. A reader error item becomes an `error` result; a file that fails to stream (I/O error)
- * throws. Results carry `index`, their 0-based position in the whole input (all files in order).
+ * throws. Results come in file order and carry `index`, the 0-based position of the spectrum in its file
+ * (as CSV's `spectrum_index` and mzTab-M's `index=N` references read it); with several files each result
+ * also names its file in `metadata.file`.
  */
 export async function scoreFiles(o: ScoreFilesOptions): Promise<ScoreSummary> {
   const now = o.now ?? (() => performance.now());
@@ -205,8 +209,10 @@ export async function scoreFiles(o: ScoreFilesOptions): Promise<ScoreSummary> {
       bytes = () => stream.bytesRead;
       items = readSpectra(stream, { file });
     }
+    const source = o.files.length > 1 ? { file: file === '-' ? '-' : basename(file) } : undefined;
     for await (const item of items) {
-      const index = counts.done;
+      // The reader's index: the 0-based position of the spectrum block in its file, good or bad.
+      const index = item.index;
       let result: SpectrumResult;
       if (item.kind === 'error') {
         o.onIssue?.(item.issue, index);
@@ -223,6 +229,7 @@ export async function scoreFiles(o: ScoreFilesOptions): Promise<ScoreSummary> {
         const { id, ...rest } = scored;
         result = { id, index, ...rest };
       }
+      if (source) result.metadata = { ...result.metadata, ...source };
       counts.done++;
       if (result.status === 'annotated') counts.annotated++;
       else if (result.status === 'unassigned') counts.unassigned++;
@@ -318,8 +325,12 @@ export const scoreCommand: Command = async (argv: string[], io: CliIo) => {
 
   let lookup: CandidatesLookup | undefined;
   if (flags.candidates !== undefined) {
-    const loaded = await loadCandidatesFile(resolve(io.cwd, flags.candidates), { file: flags.candidates, rules });
-    for (const issue of [...loaded.errors, ...loaded.warnings]) println(io.stderr, formatCandidatesIssue(issue));
+    const loaded = await loadCandidatesFile(resolve(io.cwd, flags.candidates), {
+      file: flags.candidates,
+      rules,
+    });
+    for (const issue of [...loaded.errors, ...loaded.warnings])
+      println(io.stderr, formatCandidatesIssue(issue));
     if (!loaded.value) {
       println(
         io.stderr,
@@ -337,7 +348,13 @@ export const scoreCommand: Command = async (argv: string[], io: CliIo) => {
   }
 
   let out: Writable = io.stdout;
+  // Only a regular file (or a new one) is removed when scoring fails: never /dev/null or a pipe.
+  let removable = false;
   if (outPath) {
+    removable = await stat(outPath).then(
+      (s) => s.isFile(),
+      () => true,
+    );
     try {
       out = await openOut(outPath);
     } catch (err) {
@@ -393,7 +410,7 @@ export const scoreCommand: Command = async (argv: string[], io: CliIo) => {
     await writer.abort().catch(() => {});
     if (outPath) {
       out.destroy();
-      await rm(outPath, { force: true }).catch(() => {});
+      if (removable) await rm(outPath, { force: true }).catch(() => {});
     }
     const e = err as NodeJS.ErrnoException;
     if (e?.code === 'usage') throw err;
@@ -403,12 +420,16 @@ export const scoreCommand: Command = async (argv: string[], io: CliIo) => {
         : e?.code
           ? `${e.code}: ${e.message}`
           : String((err as Error)?.message ?? err);
-    println(io.stderr, `peel score: stopped, ${what}${outPath ? `; ${flags.out} was removed` : ''}`);
+    println(
+      io.stderr,
+      `peel score: stopped, ${what}${outPath && removable ? `; ${flags.out} was removed` : ''}`,
+    );
     return 1;
   }
   progress.clear();
   for (const line of issues) println(io.stderr, line);
-  if (issueCount > issues.length) println(io.stderr, `… and ${fmt(issueCount - issues.length)} more unreadable spectra`);
+  if (issueCount > issues.length)
+    println(io.stderr, `… and ${fmt(issueCount - issues.length)} more unreadable spectra`);
   const unmatched = lookup?.unmatched() ?? [];
   if (unmatched.length > 0) {
     const shown = unmatched.slice(0, 5).join(', ');
@@ -436,7 +457,9 @@ function formatOf(path: string): { format?: 'mgf' | 'mzml' | 'json' } {
 
 function formatReadIssue(issue: ReadIssue, index: number): string {
   const p = issue.position;
-  const where = [p.file !== undefined ? basename(p.file) : '<input>', p.line].filter((x) => x !== undefined).join(':');
+  const where = [p.file !== undefined ? basename(p.file) : '<input>', p.line]
+    .filter((x) => x !== undefined)
+    .join(':');
   const id = p.id !== undefined ? ` spectrum ${p.id}` : '';
   return `${where}: ${issue.severity} ${issue.code} (result ${index}${id}): ${issue.message}`;
 }

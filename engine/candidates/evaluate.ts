@@ -103,6 +103,17 @@ export function compositionBounds(
   return bound;
 }
 
+const searchCache = new WeakMap<CompiledRuleSet, Map<string, Topology>>();
+
+function searchCacheFor(rules: CompiledRuleSet): Map<string, Topology> {
+  let cache = searchCache.get(rules);
+  if (!cache) {
+    cache = new Map();
+    searchCache.set(rules, cache);
+  }
+  return cache;
+}
+
 const topologyCache = new WeakMap<CompiledRuleSet, Map<string, Topology[]>>();
 
 function topologiesFor(rules: CompiledRuleSet, units: Uint8Array, maxCLinked: number, limit: number): Topology[] {
@@ -342,7 +353,7 @@ export function evaluateTopologies(
   if (instances <= (options.enumerateUpTo ?? 4)) {
     for (const topo of topologiesFor(rules, compUnits, maxC, options.maxTopologies ?? 400)) scoreTopology(topo);
   } else {
-    searchTopologies(compUnits, rules.units, scoreTopology, { maxCLinked: maxC });
+    searchTopologies(compUnits, rules.units, scoreTopology, { maxCLinked: maxC, cache: searchCacheFor(rules) });
   }
   // Keep the best few distinct stackings.
   perComposition.sort((a, b) => b.score - a.score);

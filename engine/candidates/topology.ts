@@ -211,8 +211,10 @@ export function canonical(
 export interface SearchOptions {
   /** Residues on the aglycone that may be C-linked. @defaultValue 0 */
   maxCLinked?: number;
-  /** Improvement rounds per start. @defaultValue 12 */
+  /** Improvement rounds per start. @defaultValue 8 */
   maxRounds?: number;
+  /** Topologies already built, by composition and notation (shared across calls). */
+  cache?: Map<string, Topology>;
 }
 
 /**
@@ -237,11 +239,22 @@ export function searchTopologies(
   const n = unit.length;
   const maxC = options.maxCLinked ?? 0;
   const visited = new Map<string, number>();
+  const compositionKey = composition.join(',');
   const evaluate = (parent: number[], linkage: ('O' | 'C' | 'ester')[]): number => {
     const notation = canonical(unit, parent, linkage, units);
     const hit = visited.get(notation);
     if (hit !== undefined) return hit;
-    const s = score(makeTopology(unit.slice(), parent.slice(), linkage.slice(), notation, composition.length));
+    // Topologies depend on the composition only: share them across spectra.
+    const cacheKey = `${compositionKey}|${notation}`;
+    let topo = options.cache?.get(cacheKey);
+    if (!topo) {
+      topo = makeTopology(unit.slice(), parent.slice(), linkage.slice(), notation, composition.length);
+      if (options.cache) {
+        if (options.cache.size > 100_000) options.cache.clear();
+        options.cache.set(cacheKey, topo);
+      }
+    }
+    const s = score(topo);
     visited.set(notation, s);
     return s;
   };
@@ -256,11 +269,12 @@ export function searchTopologies(
     star.fill(-1);
   }
   const baseLink = unit.map((_, i) => (i < nRes ? 'O' : 'ester') as 'O' | 'C' | 'ester');
-  for (const start of [chain, star]) {
+  // Two starts for mid-sized compositions; the chain alone (the commonest shape) beyond six units.
+  for (const start of n > 6 ? [chain] : [chain, star]) {
     let parent = start.slice();
     let linkage = baseLink.slice();
     let current = evaluate(parent, linkage);
-    for (let round = 0; round < (options.maxRounds ?? 12); round++) {
+    for (let round = 0; round < (options.maxRounds ?? 8); round++) {
       let bestScore = current;
       let bestParent: number[] | undefined;
       let bestLink: ('O' | 'C' | 'ester')[] | undefined;

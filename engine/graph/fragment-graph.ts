@@ -481,17 +481,28 @@ export function edgePrior(
       if (unitsLost > 0) {
         kind = 'glycan';
         const acylsLost = unitsLost - residuesLost;
-        prior = unitsLost === 1 ? w.knownLoss : acylsLost === 1 && residuesLost === 1 ? w.knownLoss - 0.5 : w.knownLoss - 1 - 0.5 * (unitsLost - 2);
-        prior -= 0.5 * smallLost;
+        prior =
+          unitsLost === 1
+            ? w.knownLoss
+            : acylsLost === 1 && residuesLost === 1
+              ? w.knownLoss - 0.5
+              : w.knownLoss - 1 - 0.5 * (unitsLost - 2);
+        // A sugar and a small or cross-ring loss in one step is less likely than the two steps in turn.
+        prior -= 1 * smallLost;
       } else if (crossLost) {
         kind = 'cross-ring';
         prior = w.knownLoss - 0.5 - 0.5 * (smallLost - 1);
       } else if (smallLost > 0) {
         kind = 'small';
         prior = w.smallLoss - 0.5 * (smallLost - 1);
-      } else {
+      } else if (adductLost) {
         kind = 'adduct';
         prior = w.knownLoss;
+      } else {
+        // H• alone from an even-electron fragment: radical aglycone ions come from the precursor's homolytic
+        // glycosidic cleavage (Hvattum & Ekeberg 2003), so this reading is a weak one.
+        kind = 'small';
+        prior = w.smallLoss - 1;
       }
       if (adductLost && kind !== 'adduct') prior -= 0.5;
       if (radicalLost && kind !== 'adduct') prior -= 0.3;

@@ -1,6 +1,7 @@
 import { candidateMatches, candidateMissing, describeKey, type EvaluatedCandidate } from '../candidates/evaluate.js';
 import { countsMass, countsString, formulaKey, NE } from '../graph/counts.js';
 import { edgePrior } from '../graph/fragment-graph.js';
+import { edgeWeight } from '../tree/greedy.js';
 import type { CompiledRuleSet } from '../rules/compile.js';
 import type { SolvedHypothesis } from '../score/score-spectrum.js';
 import type { CleanSpectrum } from '../spectrum/clean.js';
@@ -41,6 +42,8 @@ interface Ranked {
   solved: SolvedHypothesis;
   names: string[];
   classes: string[];
+  /** Ion type of each name's reading (cyanidin [M]+ beside kaempferol [M+H]+). */
+  ions: string[];
 }
 
 /**
@@ -64,14 +67,16 @@ export function buildAnnotatedResult(
       const key = `${c.hypothesis.key}|${formulaKey(c.y0.counts, c.y0.charge)}|${c.interpretation.compositionIndex}|${c.topology.notation}`;
       const names = agl.kind === 'library' ? agl.group.members.map((m) => m.name) : ['unknown'];
       const classes = agl.kind === 'library' ? agl.group.members.map((m) => m.class) : [''];
+      const ion = c.interpretation.ion.name;
       const prev = merged.get(key);
-      if (!prev) merged.set(key, { c, solved: s, names: [...names], classes: [...classes] });
+      if (!prev) merged.set(key, { c, solved: s, names: [...names], classes: [...classes], ions: names.map(() => ion) });
       else {
         if (c.score > prev.c.score) prev.c = c;
         names.forEach((n, i) => {
           if (!prev.names.includes(n)) {
             prev.names.push(n);
             prev.classes.push(classes[i]!);
+            prev.ions.push(ion);
           }
         });
       }
@@ -102,7 +107,7 @@ export function buildAnnotatedResult(
   for (let i = 0; i < ranked.length && candidates.length < limit; i++) {
     const r = ranked[i]!;
     const c = r.c;
-    const { primary, alternatives, note } = chooseName(r, spectrum);
+    const { primary, ion, alternatives, note } = chooseName(r, spectrum);
     if (note && i === 0) cautions.push(note);
     const agl = c.interpretation.aglycone;
     const aglClass = agl.kind === 'library' ? r.classes[r.names.indexOf(primary)] : undefined;
@@ -127,7 +132,7 @@ export function buildAnnotatedResult(
       },
       substituents: substituents(c, compiled),
       topology: `${agl.kind === 'library' ? primary : `<${countsString(agl.counts)}>`}${c.topology.notation}`,
-      ionType: c.interpretation.ion.name,
+      ionType: ion,
       formula: countsString(c.hypothesis.counts, c.hypothesis.charge),
       ppm: round(c.hypothesis.ppm, 2),
       explainedIntensity: round(c.explained, 4),
@@ -156,7 +161,7 @@ export function buildAnnotatedResult(
     precursor: {
       mz: spectrum.precursor.mz,
       charge: best.c.hypothesis.charge,
-      ionType: best.c.interpretation.ion.name,
+      ionType: candidates[0]?.ionType ?? best.c.interpretation.ion.name,
     },
     candidates,
     tree: reportTree(best.solved, clean, compiled),
@@ -177,30 +182,37 @@ function confidence(c: EvaluatedCandidate, formulaCount: number, library: boolea
   return 5;
 }
 
-function chooseName(r: Ranked, spectrum: Spectrum): { primary: string; alternatives: string[]; note?: string } {
-  if (r.names.length <= 1) return { primary: r.names[0]!, alternatives: [] };
+function chooseName(
+  r: Ranked,
+  spectrum: Spectrum,
+): { primary: string; ion: string; alternatives: string[]; note?: string } {
+  const all = { primary: r.names[0]!, ion: r.ions[0]!, alternatives: r.names.slice(1) };
+  if (r.names.length <= 1) return all;
   const meta = spectrum.metadata;
   const lambda = meta?.lambdaMaxNm;
   const wanted = meta?.compoundClass?.toLowerCase();
-  let pick = -1;
+  // Indices the chemist's facts favour; they separate only when they favour some names and not others.
+  let keep: number[] = [];
   let why = '';
   if (wanted) {
-    pick = r.classes.findIndex((c) => c.toLowerCase() === wanted || c.toLowerCase().includes(wanted));
-    if (pick >= 0) why = `compound class "${meta?.compoundClass}" given with the spectrum`;
+    keep = r.classes.flatMap((c, i) => (c.toLowerCase() === wanted || c.toLowerCase().includes(wanted) ? [i] : []));
+    why = `compound class "${meta?.compoundClass}" given with the spectrum`;
   }
-  if (pick < 0 && typeof lambda === 'number') {
-    // Anthocyanins absorb near 520 nm in the visible; flavonols/flavones below ~380 nm (common practice).
+  if ((keep.length === 0 || keep.length === r.names.length) && typeof lambda === 'number') {
+    // Anthocyanins absorb near 520 nm in the visible; flavonols and flavones below ~380 nm (common practice).
     const antho = lambda >= 480;
-    pick = r.classes.findIndex((c) => ANTHOCYANIDIN_CLASS.test(c) === antho);
-    if (pick >= 0) why = `visible absorbance maximum ${lambda} nm given with the spectrum`;
+    keep = r.classes.flatMap((c, i) => (ANTHOCYANIDIN_CLASS.test(c) === antho ? [i] : []));
+    why = `visible absorbance maximum ${lambda} nm given with the spectrum`;
   }
-  if (pick < 0) return { primary: r.names[0]!, alternatives: r.names.slice(1) };
-  const primary = r.names[pick]!;
-  return {
-    primary,
-    alternatives: r.names.filter((_, i) => i !== pick),
-    note: `Tie between same-formula aglycones (${r.names.join(', ')}) broken by the ${why}.`,
-  };
+  if (keep.length === 0 || keep.length === r.names.length) return all;
+  const pick = keep[0]!;
+  const rest = r.names.filter((_, i) => i !== pick);
+  const kept = keep.map((i) => r.names[i]!);
+  const note =
+    keep.length === 1
+      ? `Tie between same-formula aglycones (${r.names.join(', ')}) broken by the ${why}.`
+      : `Same-formula aglycones (${r.names.join(', ')}) narrowed to ${kept.join(', ')} by the ${why}.`;
+  return { primary: r.names[pick]!, ion: r.ions[pick]!, alternatives: rest, note };
 }
 
 function substituents(c: EvaluatedCandidate, compiled: CompiledRuleSet): CandidateResult['substituents'] {
@@ -233,8 +245,7 @@ function reportTree(s: SolvedHypothesis, clean: CleanSpectrum, compiled: Compile
     const loss = new Int32Array(NE);
     for (let e = 0; e < NE; e++) loss[e] = nodes[p]!.counts[e]! - nodes[v]!.counts[e]!;
     const reading = edgePrior(nodes[p]!, nodes[v]!, p === 0, compiled, compiled.rules.scoring);
-    let w = 0;
-    for (let k = graph.inStart[v]!; k < graph.inStart[v + 1]!; k++) if (graph.inFrom[k] === p) w = graph.inWeight[k]!;
+    const w = edgeWeight(graph, p, v);
     outEdges.push({
       from: ids.get(p)!,
       to: ids.get(v)!,

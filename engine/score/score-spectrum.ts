@@ -16,7 +16,7 @@ import type { TreeSolution } from '../tree/graph.js';
 import { solveTree } from '../tree/solve.js';
 
 /** Interpretations (aglycone + composition) whose topologies are enumerated per spectrum. */
-const MAX_INTERPRETATIONS = 12;
+const MAX_INTERPRETATIONS = 6;
 
 /** A candidate structure a user supplies, in Peel's stacking notation (docs/stacking-notation.md). */
 export interface UserCandidate {

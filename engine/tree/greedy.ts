@@ -62,21 +62,20 @@ export function solveGreedy(g: FragGraph): TreeSolution {
   for (let v = 1; v < n; v++) {
     if (parent[v]! >= 0 || used[g.colour[v]!] || bestFrom[v]! < 0) continue;
     let gain = best[v]!;
-    const moves: number[] = [];
+    // Best improvement per child (parallel edges v→c count once, at their best weight).
+    const moves = new Map<number, number>();
     for (let j = outStart[v]!; j < outStart[v + 1]!; j++) {
       const c = outTo[j]!;
       if (parent[c]! < 0) continue;
-      const current = edgeWeight(g, parent[c]!, c);
-      if (outW[j]! > current) {
-        gain += outW[j]! - current;
-        moves.push(c, j);
-      }
+      const delta = outW[j]! - edgeWeight(g, parent[c]!, c);
+      if (delta > (moves.get(c) ?? 0)) moves.set(c, delta);
     }
+    for (const delta of moves.values()) gain += delta;
     steps++;
     if (gain > 1e-12) {
       parent[v] = bestFrom[v]!;
       used[g.colour[v]!] = 1;
-      for (let m = 0; m < moves.length; m += 2) parent[moves[m]!] = v;
+      for (const c of moves.keys()) parent[c] = v;
       score += gain;
     }
   }

@@ -40,7 +40,11 @@ export async function score(argv: string[], options: Parameters<typeof capture>[
 }
 
 /** A temporary directory, removed by the returned function. */
-export function tempDir(): { dir: string; file: (name: string, content: string | Buffer) => string; done: () => void } {
+export function tempDir(): {
+  dir: string;
+  file: (name: string, content: string | Buffer) => string;
+  done: () => void;
+} {
   const dir = mkdtempSync(join(tmpdir(), 'peel-score-test-'));
   return {
     dir,

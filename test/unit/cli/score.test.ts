@@ -2,8 +2,11 @@ import { readFileSync } from 'node:fs';
 import { gzipSync } from 'node:zlib';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { generateSet } from '../../../bench/sim/generate.js';
-import { toMgf } from '../../../bench/sim/files.js';
-import { ResultsDocumentSchema, type SpectrumResult, SpectrumResultSchema } from '../../../engine/report/result.js';
+import {
+  ResultsDocumentSchema,
+  type SpectrumResult,
+  SpectrumResultSchema,
+} from '../../../engine/report/result.js';
 import { CSV_COLUMNS } from '../../../formats/write-csv.js';
 import { writeMzml } from '../../helpers/write-mzml.js';
 import { CYANIDIN_HEX_PEN, mgfBlock, score, tempDir } from './score-helpers.js';
@@ -32,7 +35,9 @@ describe('peel score: inputs', () => {
     for (const s of doc.spectra) {
       expect(['annotated', 'unassigned']).toContain(s.status);
       if (s.status === 'unassigned') expect(s.reason?.code).toBeTruthy();
-      s.candidates.forEach((c, i) => expect(c.rank).toBeGreaterThanOrEqual(i === 0 ? 1 : s.candidates[i - 1]!.rank));
+      for (const [i, c] of s.candidates.entries()) {
+        expect(c.rank).toBeGreaterThanOrEqual(i === 0 ? 1 : s.candidates[i - 1]!.rank);
+      }
     }
     // Not a TTY: no bar, one summary line.
     expect(err).not.toContain('\r');
@@ -42,7 +47,13 @@ describe('peel score: inputs', () => {
 
   it('reads mzML (zlib, 64-bit arrays), MS1 scans skipped, ids from the spectrum elements', async () => {
     const set = generateSet({ count: 6, seed: 'score-cli-mzml', decoyFraction: 0 });
-    const path = tmp.file('sim.mzML', writeMzml(set.map((x) => x.spectrum), { ms1: true, indexed: true }));
+    const path = tmp.file(
+      'sim.mzML',
+      writeMzml(
+        set.map((x) => x.spectrum),
+        { ms1: true, indexed: true },
+      ),
+    );
     const { code, out } = await score([path]);
     expect(code).toBe(0);
     const doc = parseDoc(out);
@@ -51,13 +62,18 @@ describe('peel score: inputs', () => {
     expect(doc.spectra.filter((s) => s.status === 'annotated').length).toBeGreaterThan(0);
   });
 
-  it('reads a JSON document and gzip-compressed MGF, numbering results across files', async () => {
+  it('reads a JSON document and gzip-compressed MGF; index counts within each file, metadata.file names it', async () => {
     const gz = tmp.file('cy.mgf.gz', gzipSync(CYANIDIN_HEX_PEN));
     const { code, out, err } = await score([FIXTURE_JSON, gz]);
     expect(code).toBe(0);
     const doc = parseDoc(out);
     expect(doc.spectra.map((s) => s.id)).toEqual(['sim-cy3glc', 'sim-q3glc-neg', 'cy-hex-pen']);
-    expect(doc.spectra.map((s) => s.index)).toEqual([0, 1, 2]);
+    expect(doc.spectra.map((s) => s.index)).toEqual([0, 1, 0]);
+    expect(doc.spectra.map((s) => s.metadata?.file)).toEqual([
+      'simulated-spectra.json',
+      'simulated-spectra.json',
+      'cy.mgf.gz',
+    ]);
     expect(doc.spectra[0]!.rt).toBe(312.5);
     expect(err).toMatch(/3 spectra from 2 files/);
   });
@@ -70,7 +86,10 @@ describe('peel score: inputs', () => {
 
   it('turns a broken spectrum into an error result and scores the ones around it', async () => {
     const text =
-      mgfBlock('good-1', 449.10784, '1+', [[287.05501, 1000], [449.10784, 100]]) +
+      mgfBlock('good-1', 449.10784, '1+', [
+        [287.05501, 1000],
+        [449.10784, 100],
+      ]) +
       'BEGIN IONS\nTITLE=broken\nPEPMASS=449.10784\nCHARGE=1+\n287.05501 lots\nEND IONS\n' +
       CYANIDIN_HEX_PEN;
     const path = tmp.file('one-bad.mgf', text);
@@ -92,7 +111,10 @@ describe('peel score: inputs', () => {
   });
 
   it('names a result the reader could not identify index-N', async () => {
-    const path = tmp.file('no-title.mgf', `${CYANIDIN_HEX_PEN}BEGIN IONS\nPEPMASS=-3\n287.05501 10\nEND IONS\n`);
+    const path = tmp.file(
+      'no-title.mgf',
+      `${CYANIDIN_HEX_PEN}BEGIN IONS\nPEPMASS=-3\n287.05501 10\nEND IONS\n`,
+    );
     const { code, out } = await score([path]);
     expect(code).toBe(0);
     const doc = parseDoc(out);
@@ -124,7 +146,14 @@ describe('peel score: output formats', () => {
   const tmp = tempDir();
   let input: string;
   beforeAll(() => {
-    input = tmp.file('two.mgf', CYANIDIN_HEX_PEN + mgfBlock('cy-hex', 449.10784, '1+', [[287.05501, 1000], [449.10784, 90]]));
+    input = tmp.file(
+      'two.mgf',
+      CYANIDIN_HEX_PEN +
+        mgfBlock('cy-hex', 449.10784, '1+', [
+          [287.05501, 1000],
+          [449.10784, 90],
+        ]),
+    );
   });
   afterAll(() => tmp.done());
 
@@ -141,7 +170,10 @@ describe('peel score: output formats', () => {
   it('ndjson: header, one SpectrumResult per line, footer', async () => {
     const r = await score([input, '--format', 'ndjson']);
     expect(r.code).toBe(0);
-    const lines = r.out.trim().split('\n').map((l) => JSON.parse(l) as Record<string, unknown>);
+    const lines = r.out
+      .trim()
+      .split('\n')
+      .map((l) => JSON.parse(l) as Record<string, unknown>);
     expect(lines[0]!.type).toBe('header');
     expect(lines.at(-1)).toMatchObject({ type: 'footer', spectra: 2 });
     const results = lines.slice(1, -1).map((l) => SpectrumResultSchema.parse(l));
@@ -163,20 +195,31 @@ describe('peel score: output formats', () => {
   });
 
   it('mztab: MTD/SML/SMF/SME sections, one ms_run per input file, rows pointing at their run', async () => {
-    const second = tmp.file('second.mgf', mgfBlock('other', 449.10784, '1+', [[287.05501, 1000], [449.10784, 90]]));
+    const second = tmp.file(
+      'second.mgf',
+      mgfBlock('other', 449.10784, '1+', [
+        [287.05501, 1000],
+        [449.10784, 90],
+      ]),
+    );
     const r = await score([input, second, '--format', 'mztab']);
     expect(r.code).toBe(0);
     const lines = r.out.split('\n');
     expect(lines[0]).toBe('MTD\tmzTab-version\t2.0.0-M');
-    const mtd = new Map(lines.filter((l) => l.startsWith('MTD\t')).map((l) => [l.split('\t')[1]!, l.split('\t')[2]!]));
+    const mtd = new Map(
+      lines.filter((l) => l.startsWith('MTD\t')).map((l) => [l.split('\t')[1]!, l.split('\t')[2]!]),
+    );
     expect(mtd.get('ms_run[1]-location')).toMatch(/^file:\/\/.*two\.mgf$/);
     expect(mtd.get('ms_run[2]-location')).toMatch(/^file:\/\/.*second\.mgf$/);
-    for (const p of ['SMH', 'SML', 'SFH', 'SMF', 'SEH', 'SME']) expect(lines.some((l) => l.startsWith(`${p}\t`))).toBe(true);
+    for (const p of ['SMH', 'SML', 'SFH', 'SMF', 'SEH', 'SME'])
+      expect(lines.some((l) => l.startsWith(`${p}\t`))).toBe(true);
     const seh = lines.find((l) => l.startsWith('SEH\t'))!.split('\t');
     const ref = seh.indexOf('spectra_ref');
     const refs = lines.filter((l) => l.startsWith('SME\t')).map((l) => l.split('\t')[ref]!);
     expect(refs.some((x) => x.startsWith('ms_run[1]:'))).toBe(true);
-    expect(refs.some((x) => x.startsWith('ms_run[2]:'))).toBe(true);
+    // Peak-list spectra are referenced by their 0-based index in their own file.
+    expect(refs).toContain('ms_run[2]:index=0');
+    expect(refs).toContain('ms_run[1]:index=1');
   });
 });
 
@@ -206,6 +249,13 @@ describe('peel score: options', () => {
     expect(readFileSync(path, 'utf8')).toBe(CYANIDIN_HEX_PEN);
   });
 
+  it('exits 1 before scoring when --out cannot be written', async () => {
+    const path = tmp.file('in2.mgf', CYANIDIN_HEX_PEN);
+    const r = await score([path, '--out', `${tmp.dir}/no/such/dir/r.json`]);
+    expect(r.code).toBe(1);
+    expect(r.err).toMatch(/cannot write .*r\.json: ENOENT/);
+  });
+
   it('prints its usage with --help', async () => {
     const r = await score(['--help']);
     expect(r.code).toBe(0);
@@ -213,7 +263,10 @@ describe('peel score: options', () => {
   });
 
   it('exits 1 with file:line of every problem for an invalid --rules file', async () => {
-    const rules = tmp.file('bad-rules.yaml', 'name: broken\nversion: 1.0.0\nresidues:\n  - name: Hex\n    formula: C6H10Q5\n');
+    const rules = tmp.file(
+      'bad-rules.yaml',
+      'name: broken\nversion: 1.0.0\nresidues:\n  - name: Hex\n    formula: C6H10Q5\n',
+    );
     const r = await score([DEMO_POS, '--rules', rules]);
     expect(r.code).toBe(1);
     expect(r.out).toBe('');
@@ -245,7 +298,8 @@ describe('peel score: options', () => {
     );
     const wide = parseDoc((await score([input])).out).spectra[0]!;
     const narrow = parseDoc((await score([input, '--ppm', '3'])).out).spectra[0]!;
-    const has449 = (s: SpectrumResult) => (s.candidates[0]?.matchedPeaks ?? []).some((p) => Math.abs(p.mz - shifted(8)) < 1e-4);
+    const has449 = (s: SpectrumResult) =>
+      (s.candidates[0]?.matchedPeaks ?? []).some((p) => Math.abs(p.mz - shifted(8)) < 1e-4);
     expect(has449(wide)).toBe(true);
     expect(has449(narrow)).toBe(false);
     for (const p of narrow.candidates.flatMap((c) => c.matchedPeaks)) {
@@ -266,7 +320,9 @@ describe('peel score: options', () => {
     expect(wide.candidates[0]?.aglycone.name).toBe('cyanidin');
     const narrow = parseDoc((await score([input, '--precursor-ppm', '1'])).out).spectra[0]!;
     for (const c of narrow.candidates) expect(Math.abs(c.ppm)).toBeLessThanOrEqual(1 + 1e-6);
-    expect(narrow.candidates.some((c) => c.aglycone.name === 'cyanidin' && c.topology.includes('Pen'))).toBe(false);
+    expect(narrow.candidates.some((c) => c.aglycone.name === 'cyanidin' && c.topology.includes('Pen'))).toBe(
+      false,
+    );
   });
 
   it('draws a progress bar on a terminal and still ends with the summary', async () => {

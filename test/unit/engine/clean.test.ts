@@ -20,7 +20,8 @@ const spectrum = (precursorMz: number, peaks: [number, number][], charge = 1): S
   precursor: { mz: precursorMz, charge },
   peaks,
 });
-const find = (s: { mz: Float64Array }, m: number, tolDa = 0.0005) => s.mz.findIndex((x) => Math.abs(x - m) <= tolDa);
+const find = (s: { mz: Float64Array }, m: number, tolDa = 0.0005) =>
+  s.mz.findIndex((x) => Math.abs(x - m) <= tolDa);
 
 describe('cleanSpectrum: settings and constants', () => {
   it('uses the ¹³C − ¹²C spacing 1.00335484 Da', () => {
@@ -34,7 +35,14 @@ describe('cleanSpectrum: ¹³C isotope folding', () => {
 
   it('folds an M+1 peak at +1.00335 with a plausible ratio into its monoisotopic peak', () => {
     // C15: M+1 ≈ 15 × 1.07 % ≈ 16 % of M (NIST ¹³C abundance 0.0107, REFERENCE.md §1)
-    const s = cleanSpectrum(spectrum(449.10784, [[y0, 100], [y0 + C13_SPACING, 16.5], [449.10784, 20]]), DEFAULTS);
+    const s = cleanSpectrum(
+      spectrum(449.10784, [
+        [y0, 100],
+        [y0 + C13_SPACING, 16.5],
+        [449.10784, 20],
+      ]),
+      DEFAULTS,
+    );
     expect(s.mz.length).toBe(2);
     const k = find(s, y0);
     expect(k).toBeGreaterThanOrEqual(0);
@@ -47,7 +55,12 @@ describe('cleanSpectrum: ¹³C isotope folding', () => {
 
   it('folds M+1 and M+2 in one series', () => {
     const s = cleanSpectrum(
-      spectrum(449.10784, [[y0, 100], [y0 + C13_SPACING, 16.5], [y0 + 2 * C13_SPACING, 2.5], [449.10784, 20]]),
+      spectrum(449.10784, [
+        [y0, 100],
+        [y0 + C13_SPACING, 16.5],
+        [y0 + 2 * C13_SPACING, 2.5],
+        [449.10784, 20],
+      ]),
       DEFAULTS,
     );
     const k = find(s, y0);
@@ -56,25 +69,56 @@ describe('cleanSpectrum: ¹³C isotope folding', () => {
   });
 
   it('keeps a peak at +1.00335 whose intensity no carbon count could give (another ion)', () => {
-    const s = cleanSpectrum(spectrum(449.10784, [[y0, 100], [y0 + C13_SPACING, 90], [449.10784, 20]]), DEFAULTS);
+    const s = cleanSpectrum(
+      spectrum(449.10784, [
+        [y0, 100],
+        [y0 + C13_SPACING, 90],
+        [449.10784, 20],
+      ]),
+      DEFAULTS,
+    );
     expect(s.mz.length).toBe(3);
     expect(s.isotopes[find(s, y0)]).toBe(0);
   });
 
   it('keeps a peak 0.01 Da off the isotope spacing', () => {
-    const s = cleanSpectrum(spectrum(449.10784, [[y0, 100], [y0 + C13_SPACING + 0.01, 10], [449.10784, 20]]), DEFAULTS);
+    const s = cleanSpectrum(
+      spectrum(449.10784, [
+        [y0, 100],
+        [y0 + C13_SPACING + 0.01, 10],
+        [449.10784, 20],
+      ]),
+      DEFAULTS,
+    );
     expect(s.mz.length).toBe(3);
   });
 
   it('folds doubly charged isotope peaks at +0.50168', () => {
     const p = 500.2;
-    const s = cleanSpectrum(spectrum(p, [[p, 100], [p + C13_SPACING / 2, 30], [300, 50]], 2), DEFAULTS);
+    const s = cleanSpectrum(
+      spectrum(
+        p,
+        [
+          [p, 100],
+          [p + C13_SPACING / 2, 30],
+          [300, 50],
+        ],
+        2,
+      ),
+      DEFAULTS,
+    );
     expect(s.mz.length).toBe(2);
     expect(s.isotopes[find(s, p)]).toBe(1);
   });
 
   it('does not fold when deisotoping is off', () => {
-    const s = cleanSpectrum(spectrum(449.10784, [[y0, 100], [y0 + C13_SPACING, 16.5]]), { ...DEFAULTS, deisotope: false });
+    const s = cleanSpectrum(
+      spectrum(449.10784, [
+        [y0, 100],
+        [y0 + C13_SPACING, 16.5],
+      ]),
+      { ...DEFAULTS, deisotope: false },
+    );
     expect(s.mz.length).toBe(2);
     expect(s.counts.isotopes).toBe(0);
   });
@@ -102,7 +146,16 @@ describe('cleanSpectrum: the radical aglycone trap (REFERENCE.md §6)', () => {
     { what: 'at 5 ppm', options: { ...DEFAULTS, ppm: 5 } },
   ])('Y0⁻ survives as its own peak next to the radical and its ¹³C peak ($what)', ({ options }) => {
     const s = cleanSpectrum(
-      spectrum(precursor, [[precursor, 30], [y0, 60], [radical, 100], [radical13C, 16]], -1),
+      spectrum(
+        precursor,
+        [
+          [precursor, 30],
+          [y0, 60],
+          [radical, 100],
+          [radical13C, 16],
+        ],
+        -1,
+      ),
       options,
     );
     const kY0 = find(s, y0, 0.001);
@@ -115,7 +168,18 @@ describe('cleanSpectrum: the radical aglycone trap (REFERENCE.md §6)', () => {
   });
 
   it('a weak Y0⁻ (at a ratio a ¹³C peak could have) is not taken for the radical’s isotope peak', () => {
-    const s = cleanSpectrum(spectrum(precursor, [[precursor, 30], [y0, 15], [radical, 100]], -1), DEFAULTS);
+    const s = cleanSpectrum(
+      spectrum(
+        precursor,
+        [
+          [precursor, 30],
+          [y0, 15],
+          [radical, 100],
+        ],
+        -1,
+      ),
+      DEFAULTS,
+    );
     const kY0 = find(s, y0, 0.001);
     expect(kY0).toBeGreaterThanOrEqual(0);
     expect(s.isotopes[find(s, radical)]).toBe(0);
@@ -127,7 +191,14 @@ describe('cleanSpectrum: merging', () => {
   it('merges peaks within the fragment tolerance into one at the intensity-weighted m/z', () => {
     const a = 287.055;
     const b = 287.0553; // 1 ppm apart
-    const s = cleanSpectrum(spectrum(449.10784, [[a, 60], [b, 40], [449.10784, 10]]), DEFAULTS);
+    const s = cleanSpectrum(
+      spectrum(449.10784, [
+        [a, 60],
+        [b, 40],
+        [449.10784, 10],
+      ]),
+      DEFAULTS,
+    );
     expect(s.mz.length).toBe(2);
     expect(s.counts.merged).toBe(1);
     expect(s.mz[0]).toBeCloseTo((a * 60 + b * 40) / 100, 10);
@@ -135,26 +206,56 @@ describe('cleanSpectrum: merging', () => {
   });
 
   it('keeps peaks 20 ppm apart separate at 10 ppm', () => {
-    const s = cleanSpectrum(spectrum(449.10784, [[287.055, 60], [287.055 * (1 + 20e-6), 40], [449.10784, 10]]), DEFAULTS);
+    const s = cleanSpectrum(
+      spectrum(449.10784, [
+        [287.055, 60],
+        [287.055 * (1 + 20e-6), 40],
+        [449.10784, 10],
+      ]),
+      DEFAULTS,
+    );
     expect(s.mz.length).toBe(3);
     expect(s.counts.merged).toBe(0);
   });
 
   it('merges at low m/z within the absolute floor (2 mDa), where ppm alone would split them', () => {
-    const s = cleanSpectrum(spectrum(449.10784, [[100, 50], [100.0015, 50], [449.10784, 10]]), DEFAULTS);
+    const s = cleanSpectrum(
+      spectrum(449.10784, [
+        [100, 50],
+        [100.0015, 50],
+        [449.10784, 10],
+      ]),
+      DEFAULTS,
+    );
     expect(s.counts.merged).toBe(1);
     expect(s.mz.length).toBe(2);
   });
 
   it('sorts unsorted input ascending by m/z', () => {
-    const s = cleanSpectrum(spectrum(449.10784, [[449.10784, 10], [287.05501, 100], [137.02, 5], [303.05, 7]]), DEFAULTS);
+    const s = cleanSpectrum(
+      spectrum(449.10784, [
+        [449.10784, 10],
+        [287.05501, 100],
+        [137.02, 5],
+        [303.05, 7],
+      ]),
+      DEFAULTS,
+    );
     expect(Array.from(s.mz)).toEqual([...s.mz].sort((x, y) => x - y));
   });
 });
 
 describe('cleanSpectrum: noise floor, cap, precursor, normalisation', () => {
   it('drops peaks below the noise floor (0.5 % of the base peak) and keeps those above', () => {
-    const s = cleanSpectrum(spectrum(449.10784, [[200, 1000], [210, 4], [220, 6], [449.10784, 100]]), DEFAULTS);
+    const s = cleanSpectrum(
+      spectrum(449.10784, [
+        [200, 1000],
+        [210, 4],
+        [220, 6],
+        [449.10784, 100],
+      ]),
+      DEFAULTS,
+    );
     expect(find(s, 210)).toBe(-1);
     expect(find(s, 220)).toBeGreaterThanOrEqual(0);
     expect(s.counts.noise).toBe(1);
@@ -178,13 +279,26 @@ describe('cleanSpectrum: noise floor, cap, precursor, normalisation', () => {
 
   it('finds the precursor within tolerance, and says -1 when it is absent', () => {
     const p = 465.10275;
-    expect(cleanSpectrum(spectrum(p, [[p * (1 + 3e-6), 10], [303.04993, 100]]), DEFAULTS).precursorIndex).toBe(1);
+    expect(
+      cleanSpectrum(
+        spectrum(p, [
+          [p * (1 + 3e-6), 10],
+          [303.04993, 100],
+        ]),
+        DEFAULTS,
+      ).precursorIndex,
+    ).toBe(1);
     expect(cleanSpectrum(spectrum(p, [[303.04993, 100]]), DEFAULTS).precursorIndex).toBe(-1);
   });
 
   it('normalises intensities to sum to 1 and reports the raw total', () => {
     const s = cleanSpectrum(
-      spectrum(611.16066, [[611.16066, 13], [465.10275, 40], [303.04993, 100], [129.05, 2.5]]),
+      spectrum(611.16066, [
+        [611.16066, 13],
+        [465.10275, 40],
+        [303.04993, 100],
+        [129.05, 2.5],
+      ]),
       DEFAULTS,
     );
     const sum = s.intensity.reduce((a, b) => a + b, 0);
@@ -194,9 +308,27 @@ describe('cleanSpectrum: noise floor, cap, precursor, normalisation', () => {
   });
 
   it('drops singly charged peaks above the precursor but keeps fragments above a doubly charged one', () => {
-    const one = cleanSpectrum(spectrum(449.1, [[449.1, 10], [287.05, 100], [520.3, 50]]), DEFAULTS);
+    const one = cleanSpectrum(
+      spectrum(449.1, [
+        [449.1, 10],
+        [287.05, 100],
+        [520.3, 50],
+      ]),
+      DEFAULTS,
+    );
     expect(find(one, 520.3)).toBe(-1);
-    const two = cleanSpectrum(spectrum(449.1, [[449.1, 10], [287.05, 100], [620.3, 50]], 2), DEFAULTS);
+    const two = cleanSpectrum(
+      spectrum(
+        449.1,
+        [
+          [449.1, 10],
+          [287.05, 100],
+          [620.3, 50],
+        ],
+        2,
+      ),
+      DEFAULTS,
+    );
     expect(find(two, 620.3)).toBeGreaterThanOrEqual(0);
   });
 });

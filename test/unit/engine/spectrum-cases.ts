@@ -32,6 +32,10 @@ export interface CaseExpectation {
   /** How many substituents have each linkage. */
   linkages?: Record<string, number>;
   matched?: { mz: number; label?: string; labelIncludes?: string; formula?: string }[];
+  /** Edges `[parent formula, child formula]` the reported tree must hold (a published pathway). */
+  treeEdges?: [string, string][];
+  /** Where the pathway of `treeEdges` comes from. */
+  treeSource?: string;
   /** Reason codes accepted for an unassigned result. */
   reasons?: string[];
 }
@@ -39,6 +43,8 @@ export interface CaseExpectation {
 export interface SpectrumCase {
   id: string;
   source: string;
+  /** Near-isobaric traps: the pair the case belongs to. */
+  pair?: string;
   polarity: 'positive' | 'negative';
   precursor: { formula?: string; mz?: number; ppm?: number; charge?: number };
   peaks: CasePeak[];
@@ -64,7 +70,8 @@ export function exactMz(p: { formula?: string; mz?: number }): number {
   throw new Error('a peak needs a formula or an m/z');
 }
 
-const measured = (p: { formula?: string; mz?: number; ppm?: number }) => exactMz(p) * (1 + (p.ppm ?? 0) * 1e-6);
+const measured = (p: { formula?: string; mz?: number; ppm?: number }) =>
+  exactMz(p) * (1 + (p.ppm ?? 0) * 1e-6);
 
 /** The spectrum a case describes. */
 export function caseSpectrum(c: SpectrumCase): Spectrum {

@@ -31,7 +31,11 @@ const notations = (ts: Topology[]) => ts.map((t) => t.notation).sort();
 
 describe('enumerateTopologies: counts', () => {
   it('Hex + Pen: chain Hex-Pen, chain Pen-Hex, two positions = 3', () => {
-    expect(notations(enumerateTopologies(comp('Hex', 'Pen'), units))).toEqual(['[Hex[Pen]]', '[Hex][Pen]', '[Pen[Hex]]']);
+    expect(notations(enumerateTopologies(comp('Hex', 'Pen'), units))).toEqual([
+      '[Hex[Pen]]',
+      '[Hex][Pen]',
+      '[Pen[Hex]]',
+    ]);
   });
 
   it('Hex × 2: a chain or two positions = 2', () => {
@@ -44,13 +48,16 @@ describe('enumerateTopologies: counts', () => {
     [3, 4],
     [4, 9],
     [5, 20],
-  ])('n identical residues: as many topologies as rooted trees with n + 1 nodes (n = %i → %i)', (n, count) => {
-    // Unlabelled rooted forests of n nodes = unlabelled rooted trees of n + 1 nodes: OEIS A000081
-    // (1, 1, 2, 4, 9, 20, 48, …) (from memory)
-    const ts = enumerateTopologies(comp(...Array<string>(n).fill('Hex')), units);
-    expect(ts.length).toBe(count);
-    expect(new Set(notations(ts)).size).toBe(count);
-  });
+  ])(
+    'n identical residues: as many topologies as rooted trees with n + 1 nodes (n = %i → %i)',
+    (n, count) => {
+      // Unlabelled rooted forests of n nodes = unlabelled rooted trees of n + 1 nodes: OEIS A000081
+      // (1, 1, 2, 4, 9, 20, 48, …) (from memory)
+      const ts = enumerateTopologies(comp(...Array<string>(n).fill('Hex')), units);
+      expect(ts.length).toBe(count);
+      expect(new Set(notations(ts)).size).toBe(count);
+    },
+  );
 
   it.each([
     [['Hex', 'Pen'], 3],
@@ -64,17 +71,29 @@ describe('enumerateTopologies: counts', () => {
   });
 
   it('Hex + malonyl: the acyl group on the aglycone or on the Hex = 2', () => {
-    expect(notations(enumerateTopologies(comp('Hex', 'malonyl'), units))).toEqual(['[Hex[malonyl]]', '[Hex][malonyl]']);
+    expect(notations(enumerateTopologies(comp('Hex', 'malonyl'), units))).toEqual([
+      '[Hex[malonyl]]',
+      '[Hex][malonyl]',
+    ]);
   });
 
   it('Hex × 2 + malonyl: 3 placements on the chain, 2 on two positions (symmetric) = 5', () => {
     expect(notations(enumerateTopologies(comp('Hex', 'Hex', 'malonyl'), units))).toEqual(
-      ['[Hex[Hex[malonyl]]]', '[Hex[Hex][malonyl]]', '[Hex[Hex]][malonyl]', '[Hex[malonyl]][Hex]', '[Hex][Hex][malonyl]'].sort(),
+      [
+        '[Hex[Hex[malonyl]]]',
+        '[Hex[Hex][malonyl]]',
+        '[Hex[Hex]][malonyl]',
+        '[Hex[malonyl]][Hex]',
+        '[Hex][Hex][malonyl]',
+      ].sort(),
     );
   });
 
   it('C-linked variants only for residues that may be C-linked, and only on the aglycone', () => {
-    expect(notations(enumerateTopologies(comp('Hex'), units, { maxCLinked: 1 }))).toEqual(['[C-Hex]', '[Hex]']);
+    expect(notations(enumerateTopologies(comp('Hex'), units, { maxCLinked: 1 }))).toEqual([
+      '[C-Hex]',
+      '[Hex]',
+    ]);
     // dHex is O-linked only in the default rule set.
     expect(notations(enumerateTopologies(comp('dHex'), units, { maxCLinked: 1 }))).toEqual(['[dHex]']);
     // A residue on another residue is never C-linked.
@@ -86,12 +105,15 @@ describe('enumerateTopologies: counts', () => {
   });
 
   it('stops at the limit', () => {
-    expect(enumerateTopologies(comp('Hex', 'Pen', 'dHex', 'HexA'), units, { limit: 10 }).length).toBeLessThanOrEqual(10);
+    expect(
+      enumerateTopologies(comp('Hex', 'Pen', 'dHex', 'HexA'), units, { limit: 10 }).length,
+    ).toBeLessThanOrEqual(10);
   });
 });
 
 describe('Topology predictions', () => {
-  const byNotation = (c: Uint8Array, opts = {}) => new Map(enumerateTopologies(c, units, opts).map((t) => [t.notation, t]));
+  const byNotation = (c: Uint8Array, opts = {}) =>
+    new Map(enumerateTopologies(c, units, opts).map((t) => [t.notation, t]));
   const hexPen = byNotation(comp('Hex', 'Pen'));
 
   it('a chain Hex-Pen loses Pen, then Hex: Y losses {∅, Pen, Hex+Pen}', () => {
@@ -120,7 +142,9 @@ describe('Topology predictions', () => {
     const onAglycone = m.get('[Hex][malonyl]')!;
     expect(new Set(onHex.yLosses)).toEqual(new Set([0, key('malonyl'), key('Hex', 'malonyl')]));
     expect(onHex.yLosses.has(key('Hex'))).toBe(false); // the Hex cannot leave without its ester
-    expect(new Set(onAglycone.yLosses)).toEqual(new Set([0, key('malonyl'), key('Hex'), key('Hex', 'malonyl')]));
+    expect(new Set(onAglycone.yLosses)).toEqual(
+      new Set([0, key('malonyl'), key('Hex'), key('Hex', 'malonyl')]),
+    );
     expect(onHex.linkage).toEqual(['O', 'ester']);
     // Either way the bare aglycone is reached by losing Hex + malonyl (the Kwon et al. 2019 248.05322 loss).
     expect(onHex.y0Loss).toBe(key('Hex', 'malonyl'));
@@ -164,7 +188,9 @@ describe('canonical notation', () => {
   it('marks C-linked residues and keeps them apart from O-linked ones', () => {
     expect(canonical([hex, hex], [-1, -1], ['C', 'O'], units)).toBe('[C-Hex][Hex]');
     expect(canonical([hex, hex], [-1, -1], ['O', 'C'], units)).toBe('[C-Hex][Hex]');
-    expect(canonical([hex, hex], [-1, -1], ['O', 'O'], units)).not.toBe(canonical([hex, hex], [-1, -1], ['C', 'O'], units));
+    expect(canonical([hex, hex], [-1, -1], ['O', 'O'], units)).not.toBe(
+      canonical([hex, hex], [-1, -1], ['C', 'O'], units),
+    );
   });
 
   it('every enumerated topology carries its canonical notation, stable from run to run', () => {
@@ -207,7 +233,9 @@ describe('searchTopologies (local search for large compositions)', () => {
       const acyl = t.unit.findIndex((u) => units[u]!.kind === 'acyl');
       const host = t.parent[acyl]!;
       const onPen = host >= 0 && units[t.unit[host]!]!.name === 'Pen';
-      const s = -t.parent.filter((p, i) => p === -1 && units[t.unit[i]!]!.kind === 'residue').length - (onPen ? 0 : 1);
+      const s =
+        -t.parent.filter((p, i) => p === -1 && units[t.unit[i]!]!.kind === 'residue').length -
+        (onPen ? 0 : 1);
       best = Math.max(best, s);
       return s;
     };

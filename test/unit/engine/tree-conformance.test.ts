@@ -122,16 +122,22 @@ const graphArb = (maxNodes: number) =>
 // Chain-like graphs: a rooted tree of positive edges with one node per colour (what a clean glycoside
 // ladder gives). The greedy heuristic takes every edge, which is optimal.
 const chainLikeArb = fc
-  .array(fc.record({ parentPick: fc.double({ min: 0, max: 1, noNaN: true }), weight: fc.double({ min: 0.01, max: 8, noNaN: true }) }), {
-    minLength: 0,
-    maxLength: 13,
-  })
+  .array(
+    fc.record({
+      parentPick: fc.double({ min: 0, max: 1, noNaN: true }),
+      weight: fc.double({ min: 0.01, max: 8, noNaN: true }),
+    }),
+    {
+      minLength: 0,
+      maxLength: 13,
+    },
+  )
   .map((nodes) => {
     const colour = [0, ...nodes.map((_, i) => i + 1)];
     const edges: Edge[] = nodes.map((x, i) => {
       const to = i + 1;
       // Mostly the previous node (a chain), sometimes an earlier one (a branch).
-      const from = x.parentPick < 0.7 ? to - 1 : Math.floor((x.parentPick - 0.7) / 0.3 * to);
+      const from = x.parentPick < 0.7 ? to - 1 : Math.floor(((x.parentPick - 0.7) / 0.3) * to);
       return { from: Math.min(from, to - 1), to, weight: x.weight };
     });
     return { colour, edges };
@@ -307,10 +313,13 @@ describe('buildGraph', () => {
   });
 
   it('treeScore rejects trees that are not colorful or use missing edges', () => {
-    const g = buildGraph([0, 1, 1], [
-      { from: 0, to: 1, weight: 1 },
-      { from: 0, to: 2, weight: 1 },
-    ]);
+    const g = buildGraph(
+      [0, 1, 1],
+      [
+        { from: 0, to: 1, weight: 1 },
+        { from: 0, to: 2, weight: 1 },
+      ],
+    );
     expect(() => treeScore(g, Int32Array.from([0, 0, 0]))).toThrow(/colour/);
     expect(() => treeScore(g, Int32Array.from([0, -1, 1]))).toThrow(/excluded/);
     expect(() => treeScore(g, Int32Array.from([-1, -1, -1]))).toThrow(/root/);

@@ -1,0 +1,153 @@
+// Benchmark (issue 3): scoring engine throughput on ONE core — one Node process, no workers — over seeded
+// simulated spectra of ≤ 100 peaks with precursor ions ≤ 1,200 Da.
+// `npm run bench -- score-speed [--count N] [--seed S] [--passes P] [--decoys F] [--rules PATH]`
+import { cpus, loadavg } from 'node:os';
+import { performance } from 'node:perf_hooks';
+import type { SpectrumResult } from '../engine/report/result.js';
+import { compileRuleSet, scoreSpectrum } from '../engine/score/score-spectrum.js';
+import type { Spectrum } from '../engine/spectrum/spectrum.js';
+import { defaultRuleSetPath, loadRuleSetFile } from '../formats/ruleset-file.js';
+import { machineLine, writeSection } from './report.js';
+import { GENERATOR, generateSet } from './sim/generate.js';
+
+/** Spectra per second on one core the issue asks for. */
+const TARGET_PER_SECOND = 2000;
+const MAX_PEAKS = 100;
+const MAX_PRECURSOR_DA = 1200;
+
+function arg(args: string[], name: string): string | undefined {
+  const i = args.indexOf(name);
+  return i >= 0 ? args[i + 1] : undefined;
+}
+
+/** The q-quantile of sorted values (linear interpolation). */
+export function quantile(sorted: ArrayLike<number>, q: number): number {
+  if (sorted.length === 0) return Number.NaN;
+  const pos = (sorted.length - 1) * q;
+  const lo = Math.floor(pos);
+  const hi = Math.ceil(pos);
+  return sorted[lo]! + (sorted[hi]! - sorted[lo]!) * (pos - lo);
+}
+
+/** One timed pass over the set. */
+interface Pass {
+  seconds: number;
+  cpuSeconds: number;
+  perSpectrumMs: Float64Array;
+  results: SpectrumResult[];
+}
+
+function timedPass(spectra: readonly Spectrum[], run: (s: Spectrum) => SpectrumResult, keep: boolean): Pass {
+  const perSpectrumMs = new Float64Array(spectra.length);
+  const results: SpectrumResult[] = [];
+  const cpu0 = process.cpuUsage();
+  const t0 = performance.now();
+  for (let i = 0; i < spectra.length; i++) {
+    const a = performance.now();
+    const r = run(spectra[i]!);
+    perSpectrumMs[i] = performance.now() - a;
+    if (keep) results.push(r);
+  }
+  const seconds = (performance.now() - t0) / 1000;
+  const cpu = process.cpuUsage(cpu0);
+  return { seconds, cpuSeconds: (cpu.user + cpu.system) / 1e6, perSpectrumMs, results };
+}
+
+export async function run(args: string[]): Promise<void> {
+  const count = Number(arg(args, '--count') ?? 3000);
+  const seedText = arg(args, '--seed') ?? '20261202';
+  const seed = /^\d+$/.test(seedText) ? Number(seedText) : seedText;
+  const passes = Number(arg(args, '--passes') ?? 3);
+  const decoyFraction = Number(arg(args, '--decoys') ?? 0.1);
+  const rulesPath = arg(args, '--rules') ?? defaultRuleSetPath();
+  if (!Number.isInteger(count) || count < 10 || !Number.isInteger(passes) || passes < 1) {
+    throw new Error(
+      'usage: npm run bench -- score-speed [--count N ≥ 10] [--seed S] [--passes P] [--decoys F] [--rules PATH]',
+    );
+  }
+  const file = await loadRuleSetFile(rulesPath);
+  if (!file.value) throw new Error(`rule set ${rulesPath} is invalid: ${file.errors[0]?.message ?? ''}`);
+  const rules = file.value;
+  const compiled = compileRuleSet(rules);
+
+  const g0 = performance.now();
+  const generated = generateSet({ count, seed, decoyFraction });
+  const genSeconds = (performance.now() - g0) / 1000;
+  // The issue's conditions: ≤ 100 peaks, precursor ions ≤ 1,200 Da (m/z × |charge|).
+  const kept = generated.filter(
+    (x) =>
+      x.spectrum.peaks.length <= MAX_PEAKS &&
+      x.spectrum.precursor.mz * Math.abs(x.spectrum.precursor.charge ?? 1) <= MAX_PRECURSOR_DA,
+  );
+  const spectra = kept.map((x) => x.spectrum);
+  const dropped = generated.length - spectra.length;
+  const decoys = kept.filter((x) => x.truth.decoy).length;
+  const peaks = spectra.map((s) => s.peaks.length).sort((a, b) => a - b);
+
+  const score = (s: Spectrum) => scoreSpectrum(s, compiled);
+  // Warm-up: let the JIT compile the hot paths before anything is timed.
+  const warm = spectra.slice(0, Math.min(spectra.length, 300));
+  for (let k = 0; k < 2; k++) for (const s of warm) score(s);
+
+  const loadBefore = loadavg();
+  const runs: Pass[] = [];
+  for (let p = 0; p < passes; p++) runs.push(timedPass(spectra, score, p === 0));
+  const loadAfter = loadavg();
+
+  const rates = runs.map((r) => spectra.length / r.seconds);
+  const order = rates.map((_, i) => i).sort((a, b) => rates[a]! - rates[b]!);
+  const median = runs[order[Math.floor(order.length / 2)]!]!;
+  const best = runs[order.at(-1)!]!;
+  const sorted = Float64Array.from(median.perSpectrumMs).sort();
+  const mean = (median.seconds * 1000) / spectra.length;
+  const results = runs[0]!.results;
+  const status = { annotated: 0, unassigned: 0, error: 0 };
+  const solver = { exact: 0, heuristic: 0, none: 0 };
+  for (const r of results) {
+    status[r.status]++;
+    const s = r.tree?.solver;
+    if (s === 'exact') solver.exact++;
+    else if (s === 'heuristic') solver.heuristic++;
+    else solver.none++;
+  }
+  const withTree = solver.exact + solver.heuristic;
+  const pct = (n: number, d: number) => (d === 0 ? '–' : `${((100 * n) / d).toFixed(1)} %`);
+  const slowest = [...median.perSpectrumMs.keys()]
+    .sort((a, b) => median.perSpectrumMs[b]! - median.perSpectrumMs[a]!)
+    .slice(0, 5)
+    .map(
+      (i) =>
+        `${spectra[i]!.id} (${median.perSpectrumMs[i]!.toFixed(1)} ms, ${spectra[i]!.peaks.length} peaks)`,
+    );
+  const rate = spectra.length / median.seconds;
+  const verdict = rate >= TARGET_PER_SECOND ? 'met' : '**not met**';
+  const fmt = (n: number) => Math.round(n).toLocaleString('en-US');
+  const la = (l: number[]) => l.map((x) => x.toFixed(2)).join(' / ');
+
+  const md = `## Scoring speed on one core (\`npm run bench -- score-speed\`)
+
+${await machineLine()}
+
+${fmt(spectra.length)} simulated spectra (${GENERATOR}, seed ${seed}; ${fmt(decoys)} of them decoys; simulated data, not
+measurements) with ≤ ${MAX_PEAKS} peaks (median ${quantile(peaks, 0.5)}, max ${peaks.at(-1)}) and precursor ions
+≤ ${fmt(MAX_PRECURSOR_DA)} Da (${dropped} generated spectra outside these limits left out), scored with
+\`scoreSpectrum\` and rule set ${rules.name} ${rules.version} in one Node process on one thread (no workers; the
+garbage collector's helper threads aside), after a warm-up of ${warm.length} spectra × 2. ${passes} timed pass(es) over
+the whole set; the table gives the median pass. Generating the set took ${genSeconds.toFixed(1)} s (not timed).
+
+Load average (1 / 5 / 15 min) before the timed passes: ${la(loadBefore)}, after: ${la(loadAfter)} on ${cpus().length}
+cores — other processes on the machine slow the wall clock; CPU time is less affected.
+
+| measure | value |
+|---|---|
+| throughput, median pass (all passes) | **${fmt(rate)} spectra/s** (${rates.map(fmt).join(', ')}); best ${fmt(spectra.length / best.seconds)} |
+| throughput per CPU-second, median pass | ${fmt(spectra.length / median.cpuSeconds)} spectra/s |
+| time per spectrum: mean / p50 / p95 / p99 / max | ${mean.toFixed(3)} / ${quantile(sorted, 0.5).toFixed(3)} / ${quantile(sorted, 0.95).toFixed(3)} / ${quantile(sorted, 0.99).toFixed(3)} / ${sorted.at(-1)!.toFixed(1)} ms |
+| results | ${fmt(status.annotated)} annotated, ${fmt(status.unassigned)} unassigned, ${fmt(status.error)} errors |
+| trees: exact / heuristic (share of spectra with a tree) | ${fmt(solver.exact)} (${pct(solver.exact, withTree)}) / ${fmt(solver.heuristic)} (${pct(solver.heuristic, withTree)}); ${fmt(solver.none)} spectra without a tree |
+| slowest spectra (median pass) | ${slowest.join('; ')} |
+| target: ≥ ${fmt(TARGET_PER_SECOND)} spectra/s on one core | ${verdict} (${(rate / TARGET_PER_SECOND).toFixed(2)} × target) |
+`;
+  writeSection('score-speed', md);
+  console.log(md);
+}
