@@ -19,7 +19,10 @@ export function writeSection(name: string, markdown: string, doc = DOC): void {
   let text = existsSync(doc) ? readFileSync(doc, 'utf8') : HEADER;
   const i = text.indexOf(start);
   const j = text.indexOf(end);
-  text = i >= 0 && j > i ? text.slice(0, i) + block + text.slice(j + end.length) : `${text.trimEnd()}\n\n${block}\n`;
+  text =
+    i >= 0 && j > i
+      ? text.slice(0, i) + block + text.slice(j + end.length)
+      : `${text.trimEnd()}\n\n${block}\n`;
   mkdirSync(dirname(doc), { recursive: true });
   writeFileSync(doc, text);
 }

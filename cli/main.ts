@@ -49,7 +49,6 @@ export async function main(argv: string[], io: CliIo): Promise<number> {
   }
 }
 
-
 if (import.meta.url === pathToFileURL(process.argv[1] ?? '').href) {
   main(process.argv.slice(2), {
     stdout: process.stdout,

@@ -141,7 +141,7 @@ export function bestCell(row: SummaryRow): string {
   return `${name}${alt} ${stackingPart(row.topology)}`;
 }
 
-function fit(s: string, width: number): string {
+function clip(s: string, width: number): string {
   return s.length > width ? `${s.slice(0, width - 1)}…` : s;
 }
 
@@ -154,7 +154,7 @@ export function formatSummaryTable(rows: readonly SummaryRow[], withTruth: boole
       String(r.index + 1),
       r.id,
       r.status,
-      fit(bestCell(r), 44),
+      clip(bestCell(r), 44),
       r.ionType ?? '',
       pct(r.explainedIntensity),
       r.confidenceLevel !== undefined ? String(r.confidenceLevel) : '',

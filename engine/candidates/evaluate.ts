@@ -1,4 +1,4 @@
-import { type Counts, NE } from '../graph/counts.js';
+import { type Counts, formulaKey, NE } from '../graph/counts.js';
 import type { CationDerivation, Derivation, FragNode, HypothesisGraph } from '../graph/fragment-graph.js';
 import type { CompiledRuleSet } from '../rules/compile.js';
 import type { CleanSpectrum } from '../spectrum/clean.js';
@@ -68,6 +68,8 @@ export interface EvaluateOptions {
   maxTopologies?: number;
   /** Compositions of at most this many units are enumerated in full; larger ones by local search. @defaultValue 4 */
   enumerateUpTo?: number;
+  /** Score this one topology only (a user-supplied candidate). */
+  only?: Topology;
 }
 
 /**
@@ -116,7 +118,12 @@ function searchCacheFor(rules: CompiledRuleSet): Map<string, Topology> {
 
 const topologyCache = new WeakMap<CompiledRuleSet, Map<string, Topology[]>>();
 
-function topologiesFor(rules: CompiledRuleSet, units: Uint8Array, maxCLinked: number, limit: number): Topology[] {
+function topologiesFor(
+  rules: CompiledRuleSet,
+  units: Uint8Array,
+  maxCLinked: number,
+  limit: number,
+): Topology[] {
   let cache = topologyCache.get(rules);
   if (!cache) {
     cache = new Map();
@@ -177,7 +184,8 @@ export function screenInterpretations(
     const ci = hg.compositions.indexOf(interp.composition.units);
     if (ci < 0) continue;
     const compUnits = hg.compositions[ci]!;
-    const aglCounts = interp.aglycone.kind === 'library' ? interp.aglycone.group.counts : interp.aglycone.counts;
+    const aglCounts =
+      interp.aglycone.kind === 'library' ? interp.aglycone.group.counts : interp.aglycone.counts;
     const cation = interp.aglycone.kind === 'library' && interp.aglycone.group.cation;
     const frag = fragmentDelta(interp.ion, rules);
     const y0Counts = new Int32Array(NE);
@@ -205,7 +213,9 @@ export function screenInterpretations(
     const fixed = 0.05 * tree.score - ppmTerm - unknown - 0.1 * nUnits + prior;
     // Bare Y0 (every unit lost) or a cross-ring ion: without either, every topology pays the Y0 penalty.
     const allKey = removedKey(compUnits);
-    const aglyconeSeen = readings.some((r) => r.list.some((x) => (x.kind === 0 && x.key === allKey) || x.kind === 2));
+    const aglyconeSeen = readings.some((r) =>
+      r.list.some((x) => (x.kind === 0 && x.key === allKey) || x.kind === 2),
+    );
     const screenScore = 10 * bound[ci]! + fixed - (aglyconeSeen ? 0 : 2 * w.missingIon);
     out.push({
       hypothesis: h,
@@ -238,7 +248,13 @@ function peakReadings(
         if (d.comp !== ci || !cores[d.core]) continue;
         const combo = rules.lossCombos[d.combo]!;
         const kind = combo.crossRing >= 0 ? 2 : combo.size === 0 ? 0 : 1;
-        list.push({ node: n, deriv: d, key: removedKey(d.removed), kind, weight: kind === 2 ? 1 : 0.7 ** combo.size });
+        list.push({
+          node: n,
+          deriv: d,
+          key: removedKey(d.removed),
+          kind,
+          weight: kind === 2 ? 1 : 0.7 ** combo.size,
+        });
       }
       for (const c of n.cations) {
         if (c.comp === ci) list.push({ node: n, cation: c, key: removedKey(c.units), kind: 3, weight: 0.8 });
@@ -289,7 +305,8 @@ export function evaluateTopologies(
       chosen[r] = -1;
       for (let k = 0; k < list.length; k++) {
         const x = list[k]!;
-        const ok = x.kind === 3 ? topo.bUnits.has(x.key) : topo.yLosses.has(x.key) && (x.kind !== 2 || topo.cLinked);
+        const ok =
+          x.kind === 3 ? topo.bUnits.has(x.key) : topo.yLosses.has(x.key) && (x.kind !== 2 || topo.cLinked);
         if (!ok) continue;
         chosen[r] = k;
         explained += intensity;
@@ -350,10 +367,16 @@ export function evaluateTopologies(
 
   const maxC = crossSeen ? 2 : 0;
   const instances = compUnits.reduce((a, x) => a + x, 0);
-  if (instances <= (options.enumerateUpTo ?? 4)) {
-    for (const topo of topologiesFor(rules, compUnits, maxC, options.maxTopologies ?? 400)) scoreTopology(topo);
+  if (options.only) {
+    scoreTopology(options.only);
+  } else if (instances <= (options.enumerateUpTo ?? 4)) {
+    for (const topo of topologiesFor(rules, compUnits, maxC, options.maxTopologies ?? 400))
+      scoreTopology(topo);
   } else {
-    searchTopologies(compUnits, rules.units, scoreTopology, { maxCLinked: maxC, cache: searchCacheFor(rules) });
+    searchTopologies(compUnits, rules.units, scoreTopology, {
+      maxCLinked: maxC,
+      cache: searchCacheFor(rules),
+    });
   }
   // Keep the best few distinct stackings.
   perComposition.sort((a, b) => b.score - a.score);
@@ -443,7 +466,8 @@ function yLabel(d: Derivation, comp: Uint8Array, rules: CompiledRuleSet, isY0: b
 function describeRemoved(removed: Uint8Array, rules: CompiledRuleSet, kind: 'acyl' | 'residue'): string {
   const parts: string[] = [];
   removed.forEach((n, u) => {
-    if (n > 0 && rules.units[u]!.kind === kind) parts.push(n === 1 ? rules.units[u]!.name : `${n}${rules.units[u]!.name}`);
+    if (n > 0 && rules.units[u]!.kind === kind)
+      parts.push(n === 1 ? rules.units[u]!.name : `${n}${rules.units[u]!.name}`);
   });
   return parts.join('+');
 }
@@ -458,4 +482,9 @@ function bLabel(c: CationDerivation, rules: CompiledRuleSet): string {
   });
   if (residues === 0) return `acylium (${acyl})`;
   return `B${residues}${water ? '−H2O' : ''}`;
+}
+
+/** Identity of a candidate across hypotheses: precursor, Y0, composition and stacking. */
+export function candidateKey(c: EvaluatedCandidate): string {
+  return `${c.hypothesis.key}|${formulaKey(c.y0.counts, c.y0.charge)}|${c.interpretation.composition.units.join(',')}|${c.topology.notation}`;
 }

@@ -136,7 +136,8 @@ export function interpretPrecursor(
     const comp = rules.compositions[compIndex]!;
     if (!keyIon(ion, aglCounts, agl.kind === 'library' && agl.group.cation, comp)) return;
     const counts = new Int32Array(NE);
-    for (let e = 0; e < NE; e++) counts[e] = (aglCounts[e]! + comp.counts[e]!) * ion.multiplier + ion.delta.counts[e]!;
+    for (let e = 0; e < NE; e++)
+      counts[e] = (aglCounts[e]! + comp.counts[e]!) * ion.multiplier + ion.delta.counts[e]!;
     for (let e = 0; e < NE; e++) if (counts[e]! < 0) return;
     const key = formulaKey(counts, ion.charge);
     let h = byKey.get(key);
@@ -179,7 +180,8 @@ export function interpretPrecursor(
     for (let i = 0; i < spectrum.intensity.length; i++) base = Math.max(base, spectrum.intensity[i]!);
     const seen = new Set<number>();
     for (let i = 0; i < spectrum.mz.length; i++) {
-      if (spectrum.intensity[i]! < options.unknownY0MinRelative * base || i === spectrum.precursorIndex) continue;
+      if (spectrum.intensity[i]! < options.unknownY0MinRelative * base || i === spectrum.precursorIndex)
+        continue;
       const fz = frag.charge;
       const fragAtoms = spectrum.mz[i]! * Math.abs(fz) + fz * ELECTRON_MASS;
       for (const radical of polarity === 'negative' ? [0, 1] : [0]) {

@@ -130,10 +130,16 @@ export function enumerateTopologies(
       if (k === acyls.length) {
         const u2 = unit.concat(acyls);
         const p2 = parent.concat(hosts);
-        const rootRes = [...Array(nRes).keys()].filter((i) => parent[i] === -1 && units[unit[i]!]!.linkages.includes('C'));
+        const rootRes = [...Array(nRes).keys()].filter(
+          (i) => parent[i] === -1 && units[unit[i]!]!.linkages.includes('C'),
+        );
         const maxC = Math.min(options.maxCLinked ?? 0, rootRes.length);
         for (const cSet of subsetsUpTo(rootRes, maxC)) {
-          const link = u2.map((_, i) => (i >= nRes ? 'ester' : cSet.includes(i) ? 'C' : 'O')) as ('O' | 'C' | 'ester')[];
+          const link = u2.map((_, i) => (i >= nRes ? 'ester' : cSet.includes(i) ? 'C' : 'O')) as (
+            | 'O'
+            | 'C'
+            | 'ester'
+          )[];
           const notation = canonical(u2, p2, link, units);
           if (seenText.has(notation)) continue;
           seenText.add(notation);
@@ -199,7 +205,9 @@ export function canonical(
 ): string {
   const kids: number[][] = unit.map(() => []);
   const roots: number[] = [];
-  parent.forEach((p, i) => (p < 0 ? roots : kids[p]!).push(i));
+  parent.forEach((p, i) => {
+    (p < 0 ? roots : kids[p]!).push(i);
+  });
   const text = (i: number): string => {
     const inner = kids[i]!.map(text).sort().join('');
     return `[${linkage[i] === 'C' ? 'C-' : ''}${units[unit[i]!]!.name}${inner}]`;

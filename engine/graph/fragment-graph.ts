@@ -187,7 +187,13 @@ export function matchHypothesis(
     charge: h.charge,
     mz: h.mz,
     ppm: h.ppm,
-    derivs: comps.map((c, ci) => ({ comp: ci, removed: new Uint8Array(c.length), combo: 0, radical: 0, core: 0 })),
+    derivs: comps.map((c, ci) => ({
+      comp: ci,
+      removed: new Uint8Array(c.length),
+      combo: 0,
+      radical: 0,
+      core: 0,
+    })),
     cations: [],
     generic: false,
   };
@@ -223,7 +229,8 @@ export function matchHypothesis(
       if (spectrum.mz[m]! < mz - tol) lo = m + 1;
       else hi = m;
     }
-    for (let p = lo; p < nPeaks && spectrum.mz[p]! <= mz + tol; p++) if (p !== spectrum.precursorIndex) visit(p);
+    for (let p = lo; p < nPeaks && spectrum.mz[p]! <= mz + tol; p++)
+      if (p !== spectrum.precursorIndex) visit(p);
   };
 
   // Rule derivations: precursor (or core) − removed units − small-loss combination − H•, matched to peaks.
@@ -256,7 +263,10 @@ export function matchHypothesis(
             const r = rules.crossRingResidue[combo.crossRing]!;
             if (!hasC || compUnits[r]! - removed[r]! < 1) continue;
           } else if (combo.size > 1 && !ladderEnd) continue;
-          const maxRadical = options.polarity === 'negative' && !combo.radical && removedCount === total && combo.size <= 1 ? 1 : 0;
+          const maxRadical =
+            options.polarity === 'negative' && !combo.radical && removedCount === total && combo.size <= 1
+              ? 1
+              : 0;
           for (let radical = 0; radical <= maxRadical; radical++) {
             if (coreIdx === 0 && removedCount === 0 && k === 0 && !radical) continue; // the precursor itself
             const atoms = coreMass - lostMass - combo.mass - radical * H_MASS;
@@ -303,7 +313,8 @@ export function matchHypothesis(
         }
         if (!cation || (acyls > 0 && n > 1)) continue;
         tmp.fill(0);
-        for (let u = 0; u < nU; u++) if (part[u]) for (let e = 0; e < NE; e++) tmp[e]! += part[u]! * units[u]!.counts[e]!;
+        for (let u = 0; u < nU; u++)
+          if (part[u]) for (let e = 0; e < NE; e++) tmp[e]! += part[u]! * units[u]!.counts[e]!;
         tmp[1]! += 1;
         for (let water = 0; water <= (acyls > 0 ? 0 : 1); water++) {
           if (water) {

@@ -1,5 +1,11 @@
-import { candidateMatches, candidateMissing, describeKey, type EvaluatedCandidate } from '../candidates/evaluate.js';
-import { countsMass, countsString, formulaKey, NE } from '../graph/counts.js';
+import {
+  candidateKey,
+  candidateMatches,
+  candidateMissing,
+  describeKey,
+  type EvaluatedCandidate,
+} from '../candidates/evaluate.js';
+import { countsMass, countsString, NE } from '../graph/counts.js';
 import { edgePrior } from '../graph/fragment-graph.js';
 import { edgeWeight } from '../tree/greedy.js';
 import type { CompiledRuleSet } from '../rules/compile.js';
@@ -56,6 +62,10 @@ export function buildAnnotatedResult(
   clean: CleanSpectrum,
   solved: SolvedHypothesis[],
   compiled: CompiledRuleSet,
+  user: { userKeys: ReadonlySet<string>; userNotes: readonly string[] } = {
+    userKeys: new Set(),
+    userNotes: [],
+  },
 ): SpectrumResult {
   const rules = compiled.rules;
   const w = rules.scoring;
@@ -64,12 +74,19 @@ export function buildAnnotatedResult(
   for (const s of solved) {
     for (const c of s.candidates) {
       const agl = c.interpretation.aglycone;
-      const key = `${c.hypothesis.key}|${formulaKey(c.y0.counts, c.y0.charge)}|${c.interpretation.compositionIndex}|${c.topology.notation}`;
+      const key = candidateKey(c);
       const names = agl.kind === 'library' ? agl.group.members.map((m) => m.name) : ['unknown'];
       const classes = agl.kind === 'library' ? agl.group.members.map((m) => m.class) : [''];
       const ion = c.interpretation.ion.name;
       const prev = merged.get(key);
-      if (!prev) merged.set(key, { c, solved: s, names: [...names], classes: [...classes], ions: names.map(() => ion) });
+      if (!prev)
+        merged.set(key, {
+          c,
+          solved: s,
+          names: [...names],
+          classes: [...classes],
+          ions: names.map(() => ion),
+        });
       else {
         if (c.score > prev.c.score) prev.c = c;
         names.forEach((n, i) => {
@@ -84,7 +101,7 @@ export function buildAnnotatedResult(
   }
   const ranked = [...merged.values()].sort((a, b) => b.c.score - a.c.score);
   const best = ranked[0];
-  const cautions: string[] = [];
+  const cautions: string[] = [...user.userNotes];
   const minEvidence = best && best.c.explained >= w.minExplained && best.c.keyIonSeen;
   if (!best || !minEvidence) {
     const r = unassignedResult(
@@ -98,14 +115,17 @@ export function buildAnnotatedResult(
     return r;
   }
   const exact = best.solved.tree.exact;
-  if (!exact) cautions.push('Fragmentation tree solved by the heuristic (graph beyond the exact solver\'s size).');
+  if (!exact)
+    cautions.push("Fragmentation tree solved by the heuristic (graph beyond the exact solver's size).");
   if (clean.precursorIndex < 0) cautions.push('Precursor ion not observed in the MS2 spectrum.');
 
   const limit = rules.limits.maxCandidates;
   const formulaCount = new Set(ranked.map((r) => r.c.hypothesis.key)).size;
   const candidates: CandidateResult[] = [];
-  for (let i = 0; i < ranked.length && candidates.length < limit; i++) {
+  for (let i = 0; i < ranked.length; i++) {
     const r = ranked[i]!;
+    // Past the limit, only user-supplied candidates are still reported (with their true rank).
+    if (candidates.length >= limit && !user.userKeys.has(candidateKey(r.c))) continue;
     const c = r.c;
     const { primary, ion, alternatives, note } = chooseName(r, spectrum);
     if (note && i === 0) cautions.push(note);
@@ -118,12 +138,16 @@ export function buildAnnotatedResult(
     }
     const missing = candidateMissing(c);
     if (missing.length > 0) {
-      const names = missing.slice(0, 6).map((m) => (m === 'X' ? 'cross-ring X ions' : m === 'Y0' ? 'Y0' : `Y(−${describeKey(m, compiled)})`));
+      const names = missing
+        .slice(0, 6)
+        .map((m) =>
+          m === 'X' ? 'cross-ring X ions' : m === 'Y0' ? 'Y0' : `Y(−${describeKey(m, compiled)})`,
+        );
       notes.push(`Predicted but not observed: ${names.join(', ')}.`);
     }
     const level = confidence(c, formulaCount, agl.kind === 'library', w.minExplained);
     candidates.push({
-      rank: candidates.length + 1,
+      rank: i + 1,
       aglycone: {
         name: primary,
         formula: countsString(c.y0.counts, c.y0.charge),
@@ -139,7 +163,7 @@ export function buildAnnotatedResult(
       score: round(c.score, 3),
       confidenceLevel: level,
       ...(tied ? { tiedWithPrevious: true } : {}),
-      source: 'rules',
+      source: user.userKeys.has(candidateKey(c)) ? 'user' : 'rules',
       matchedPeaks: candidateMatches(c, compiled)
         .map((m) => ({
           mz: round(clean.mz[m.node.peak]!, 5),
@@ -175,7 +199,12 @@ function round(x: number, digits: number): number {
 }
 
 /** Schymanski et al. 2014 levels as Peel applies them (docs/confidence.md). */
-function confidence(c: EvaluatedCandidate, formulaCount: number, library: boolean, minExplained: number): number {
+function confidence(
+  c: EvaluatedCandidate,
+  formulaCount: number,
+  library: boolean,
+  minExplained: number,
+): number {
   const strong = c.explained >= minExplained && c.keyIonSeen;
   if (library && strong) return 3; // tentative structure: aglycone + sugar classes, stereo/positions open
   if (strong && formulaCount === 1) return 4; // unequivocal molecular formula
@@ -195,7 +224,9 @@ function chooseName(
   let keep: number[] = [];
   let why = '';
   if (wanted) {
-    keep = r.classes.flatMap((c, i) => (c.toLowerCase() === wanted || c.toLowerCase().includes(wanted) ? [i] : []));
+    keep = r.classes.flatMap((c, i) =>
+      c.toLowerCase() === wanted || c.toLowerCase().includes(wanted) ? [i] : [],
+    );
     why = `compound class "${meta?.compoundClass}" given with the spectrum`;
   }
   if ((keep.length === 0 || keep.length === r.names.length) && typeof lambda === 'number') {
@@ -220,7 +251,11 @@ function substituents(c: EvaluatedCandidate, compiled: CompiledRuleSet): Candida
   return t.unit.map((u, i) => ({ residue: compiled.units[u]!.name, linkage: t.linkage[i]! }));
 }
 
-function reportTree(s: SolvedHypothesis, clean: CleanSpectrum, compiled: CompiledRuleSet): SpectrumResult['tree'] {
+function reportTree(
+  s: SolvedHypothesis,
+  clean: CleanSpectrum,
+  compiled: CompiledRuleSet,
+): SpectrumResult['tree'] {
   const { graph, nodes } = s.graph;
   const parent = s.tree.parent;
   const ids = new Map<number, number>();
@@ -254,7 +289,12 @@ function reportTree(s: SolvedHypothesis, clean: CleanSpectrum, compiled: Compile
       score: round(w, 3),
     });
   }
-  return { nodes: outNodes, edges: outEdges, score: round(s.tree.score, 3), solver: s.tree.exact ? 'exact' : 'heuristic' };
+  return {
+    nodes: outNodes,
+    edges: outEdges,
+    score: round(s.tree.score, 3),
+    solver: s.tree.exact ? 'exact' : 'heuristic',
+  };
 }
 
 function lossName(r: NonNullable<ReturnType<typeof edgePrior>>, compiled: CompiledRuleSet): string {

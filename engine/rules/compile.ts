@@ -155,7 +155,12 @@ export function compileRuleSet(rules: RuleSet): CompiledRuleSet {
     }),
   ];
   const residueCount = rules.residues.length;
-  const compositions = enumerateCompositions(units, residueCount, rules.limits.maxResidues, rules.limits.maxAcyls);
+  const compositions = enumerateCompositions(
+    units,
+    residueCount,
+    rules.limits.maxResidues,
+    rules.limits.maxAcyls,
+  );
   compositions.sort((a, b) => a.mass - b.mass);
 
   const byKey = new Map<string, CompiledAglycone[]>();
@@ -198,7 +203,8 @@ export function compileRuleSet(rules: RuleSet): CompiledRuleSet {
 
   const crossRingResidue = rules.crossRing.map((x, i) => {
     const k = rules.residues.findIndex((r) => r.name === x.residue);
-    if (k < 0) throw new RuleCompileError('compile-reference', `crossRing[${i}]: no residue named "${x.residue}"`);
+    if (k < 0)
+      throw new RuleCompileError('compile-reference', `crossRing[${i}]: no residue named "${x.residue}"`);
     return k;
   });
   const lossCombos = enumerateLossCombos(rules);
@@ -217,7 +223,11 @@ export function compileRuleSet(rules: RuleSet): CompiledRuleSet {
   const adductLosses = new Map<string, { counts: Counts; mass: number; name: string }>();
   rules.adductLosses.forEach((l, i) => {
     const { counts } = formulaCounts(l.formula, `adductLosses[${i}]`);
-    adductLosses.set(ion(l.ionType, `adductLosses[${i}]`).name, { counts, mass: countsMass(counts), name: l.name });
+    adductLosses.set(ion(l.ionType, `adductLosses[${i}]`).name, {
+      counts,
+      mass: countsMass(counts),
+      name: l.name,
+    });
   });
 
   const aglyconeRanges = ranges(rules.elements.aglycone);
@@ -234,7 +244,9 @@ export function compileRuleSet(rules: RuleSet): CompiledRuleSet {
     crossRingNames: rules.crossRing.map((x) => x.name),
     crossRingResidue,
     diagnosticCrossRing: diagnosticMap(rules, crossRingResidue),
-    crossRingMasses: rules.crossRing.map((x, i) => countsMass(formulaCounts(x.formula, `crossRing[${i}]`).counts)),
+    crossRingMasses: rules.crossRing.map((x, i) =>
+      countsMass(formulaCounts(x.formula, `crossRing[${i}]`).counts),
+    ),
     lossCombos,
     comboNested,
     adductLosses,
@@ -254,14 +266,20 @@ function diagnosticMap(rules: RuleSet, residueOf: readonly number[]): Map<number
   return out;
 }
 
-function enumerateCompositions(units: Unit[], residueCount: number, maxRes: number, maxAcyl: number): Composition[] {
+function enumerateCompositions(
+  units: Unit[],
+  residueCount: number,
+  maxRes: number,
+  maxAcyl: number,
+): Composition[] {
   const out: Composition[] = [];
   const cur = new Uint8Array(units.length);
   const walk = (i: number, res: number, acyl: number) => {
     if (i === units.length) {
       if (res === 0) return;
       const counts = new Int32Array(NE);
-      for (let u = 0; u < units.length; u++) for (let e = 0; e < NE; e++) counts[e]! += cur[u]! * units[u]!.counts[e]!;
+      for (let u = 0; u < units.length; u++)
+        for (let e = 0; e < NE; e++) counts[e]! += cur[u]! * units[u]!.counts[e]!;
       out.push({ units: cur.slice(), counts, mass: countsMass(counts), residues: res, acyls: acyl });
       return;
     }

@@ -1,5 +1,7 @@
 import {
+  candidateKey,
   compositionBounds,
+  type EvaluateOptions,
   type EvaluatedCandidate,
   evaluateTopologies,
   type ScreenedInterpretation,
@@ -12,6 +14,13 @@ import { buildAnnotatedResult, unassignedResult } from '../report/build-result.j
 import type { CompiledRuleSet } from '../rules/compile.js';
 import { cleanSpectrum } from '../spectrum/clean.js';
 import { type Spectrum, spectrumPolarity } from '../spectrum/spectrum.js';
+import { canonical, makeTopology } from '../candidates/topology.js';
+import { parseStacking, type Stacking } from '../candidates/stacking.js';
+import type { PrecursorHypothesis } from '../candidates/precursor.js';
+import { ELECTRON_MASS } from '../chem/elements.js';
+import { countsMass, formulaKey, NE } from '../graph/counts.js';
+import type { GraphOptions } from '../graph/fragment-graph.js';
+import type { CleanSpectrum } from '../spectrum/clean.js';
 import type { TreeSolution } from '../tree/graph.js';
 import { solveTree } from '../tree/solve.js';
 
@@ -42,7 +51,11 @@ export interface SolvedHypothesis {
 }
 
 /** Scores one spectrum: its fragmentation tree and ranked candidate structures. Never throws for bad data. */
-export function scoreSpectrum(spectrum: Spectrum, compiled: CompiledRuleSet, options: ScoreOptions = {}): SpectrumResult {
+export function scoreSpectrum(
+  spectrum: Spectrum,
+  compiled: CompiledRuleSet,
+  options: ScoreOptions = {},
+): SpectrumResult {
   try {
     const result = scoreUnchecked(spectrum, compiled, options);
     return spectrum.rt === undefined ? result : { ...result, rt: spectrum.rt };
@@ -58,7 +71,11 @@ export function scoreSpectrum(spectrum: Spectrum, compiled: CompiledRuleSet, opt
   }
 }
 
-function scoreUnchecked(spectrum: Spectrum, compiled: CompiledRuleSet, options: ScoreOptions): SpectrumResult {
+function scoreUnchecked(
+  spectrum: Spectrum,
+  compiled: CompiledRuleSet,
+  options: ScoreOptions,
+): SpectrumResult {
   const rules = compiled.rules;
   const polarity = spectrumPolarity(spectrum);
   const fragmentPpm = options.fragmentPpm ?? rules.tolerances.fragmentPpm;
@@ -68,12 +85,19 @@ function scoreUnchecked(spectrum: Spectrum, compiled: CompiledRuleSet, options: 
   if (clean.mz.length === 0) {
     return unassignedResult(spectrum, polarity, 'no-peaks', 'no peaks left after clean-up');
   }
-  const hypotheses = interpretPrecursor(spectrum.precursor.mz, spectrum.precursor.charge, polarity, clean, compiled, {
-    precursorPpm,
-    fragmentPpm,
-    floorDa,
-    unknownY0MinRelative: 0.05,
-  });
+  const hypotheses = interpretPrecursor(
+    spectrum.precursor.mz,
+    spectrum.precursor.charge,
+    polarity,
+    clean,
+    compiled,
+    {
+      precursorPpm,
+      fragmentPpm,
+      floorDa,
+      unknownY0MinRelative: 0.05,
+    },
+  );
   if (hypotheses.length === 0) {
     return unassignedResult(
       spectrum,
@@ -119,8 +143,114 @@ function scoreUnchecked(spectrum: Spectrum, compiled: CompiledRuleSet, options: 
     s.candidates.push(...evaluateTopologies(x, clean, compiled, evaluateOptions));
     evaluated++;
   }
-  return buildAnnotatedResult(spectrum, polarity, clean, solved, compiled);
+  const userNotes: string[] = [];
+  const userKeys = new Set<string>();
+  for (const u of options.candidates ?? []) {
+    const scored = scoreUserCandidate(u, spectrum, clean, compiled, polarity, graphOptions, evaluateOptions);
+    if (typeof scored === 'string') userNotes.push(scored);
+    else {
+      solved.push(scored.solved);
+      for (const c of scored.solved.candidates) userKeys.add(candidateKey(c));
+    }
+  }
+  return buildAnnotatedResult(spectrum, polarity, clean, solved, compiled, { userKeys, userNotes });
 }
 
 export type { CompiledRuleSet } from '../rules/compile.js';
 export { compileRuleSet } from '../rules/compile.js';
+
+/**
+ * Scores one user-supplied candidate: reads its stacking string, finds the ion type under which it fits the
+ * precursor, builds that hypothesis' tree and scores exactly the stacking given. Returns a caution instead
+ * when it cannot be read or fits no ion type.
+ */
+function scoreUserCandidate(
+  u: UserCandidate,
+  spectrum: Spectrum,
+  clean: CleanSpectrum,
+  compiled: CompiledRuleSet,
+  polarity: 'positive' | 'negative',
+  graphOptions: GraphOptions,
+  evaluateOptions: EvaluateOptions,
+): { solved: SolvedHypothesis } | string {
+  const label = u.name ? `${u.name} (${u.structure})` : u.structure;
+  let st: Stacking;
+  try {
+    st = parseStacking(u.structure, compiled);
+  } catch (err) {
+    return `User candidate ${label} not scored: ${err instanceof Error ? err.message : String(err)}.`;
+  }
+  const h = userHypothesis(st, spectrum, clean, compiled, polarity, evaluateOptions.precursorPpm);
+  if (!h)
+    return `User candidate ${label} fits the precursor m/z ${spectrum.precursor.mz} under no ion type of the rule set.`;
+  const graph = finishGraph(matchHypothesis(h, clean, compiled, graphOptions), clean, compiled, graphOptions);
+  const tree = solveTree(graph.graph);
+  const [screened] = screenInterpretations(h, graph, tree, clean, compiled, evaluateOptions);
+  if (!screened) return `User candidate ${label} not scored.`;
+  const topo = makeTopology(
+    st.unit,
+    st.parent,
+    st.linkage,
+    canonical(st.unit, st.parent, st.linkage, compiled.units),
+    compiled.units.length,
+  );
+  const candidates = evaluateTopologies(screened, clean, compiled, {
+    ...evaluateOptions,
+    only: topo,
+    best: { score: Number.NEGATIVE_INFINITY },
+  });
+  return { solved: { graph, tree, candidates } };
+}
+
+/** The precursor hypothesis of a user's stacking: the ion type that fits best within tolerance. */
+function userHypothesis(
+  st: Stacking,
+  spectrum: Spectrum,
+  clean: CleanSpectrum,
+  compiled: CompiledRuleSet,
+  polarity: 'positive' | 'negative',
+  precursorPpm: number,
+): PrecursorHypothesis | undefined {
+  const aglCounts = st.aglycone.kind === 'library' ? st.aglycone.group.counts : st.aglycone.counts;
+  const cation = st.aglycone.kind === 'library' && st.aglycone.group.cation;
+  const observed = [spectrum.precursor.mz];
+  if (clean.precursorIndex >= 0) observed.push(clean.mz[clean.precursorIndex]!);
+  const z0 = spectrum.precursor.charge;
+  let best: PrecursorHypothesis | undefined;
+  for (const ion of compiled.ionTypes[polarity]) {
+    if (ion.multiplier !== 1 || (ion.name === '[M]+') !== cation) continue;
+    if (z0 !== undefined ? Math.abs(ion.charge) !== Math.abs(z0) : Math.abs(ion.charge) !== 1) continue;
+    const counts = new Int32Array(NE);
+    for (let e = 0; e < NE; e++) counts[e] = aglCounts[e]! + st.composition.counts[e]! + ion.delta.counts[e]!;
+    if (counts.some((x) => x < 0)) continue;
+    const mz = (countsMass(counts) - ion.charge * ELECTRON_MASS) / Math.abs(ion.charge);
+    const ppm = observed
+      .map((o) => ((o - mz) / mz) * 1e6)
+      .reduce((a, b) => (Math.abs(b) < Math.abs(a) ? b : a));
+    if (Math.abs(ppm) > precursorPpm || (best && Math.abs(best.ppm) <= Math.abs(ppm))) continue;
+    const index = compiled.compositions.findIndex((c) =>
+      c.units.every((n, k) => n === st.composition.units[k]),
+    );
+    const aglycone =
+      st.aglycone.kind === 'library'
+        ? { kind: 'library' as const, group: st.aglycone.group }
+        : { kind: 'unknown' as const, counts: st.aglycone.counts };
+    best = {
+      ion,
+      counts,
+      charge: ion.charge,
+      key: formulaKey(counts, ion.charge),
+      mz,
+      ppm,
+      interpretations: [
+        {
+          ion,
+          aglycone,
+          composition: index >= 0 ? compiled.compositions[index]! : st.composition,
+          compositionIndex: index >= 0 ? index : -1,
+        },
+      ],
+    };
+  }
+  return best;
+}

@@ -29,7 +29,14 @@ export interface CleanSpectrum {
   /** Sum of raw intensities of the peaks kept, before normalisation. */
   readonly rawTotal: number;
   /** How many raw peaks came in and what became of them. */
-  readonly counts: { input: number; invalid: number; merged: number; isotopes: number; noise: number; capped: number };
+  readonly counts: {
+    input: number;
+    invalid: number;
+    merged: number;
+    isotopes: number;
+    noise: number;
+    capped: number;
+  };
 }
 
 /** Tolerance in Da at an m/z. */
@@ -152,7 +159,13 @@ export function cleanSpectrum(spectrum: Spectrum, options: CleanOptions): CleanS
   };
 }
 
-function findIsotope(mz: number[], it: number[], dead: Uint8Array, from: number, options: CleanOptions): number {
+function findIsotope(
+  mz: number[],
+  it: number[],
+  dead: Uint8Array,
+  from: number,
+  options: CleanOptions,
+): number {
   const m0 = mz[from]!;
   for (const c of [1, 2]) {
     const target = m0 + C13_SPACING / c;

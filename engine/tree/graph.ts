@@ -33,7 +33,8 @@ export function buildGraph(
   const n = colour.length;
   const inStart = new Int32Array(n + 1);
   for (const e of edges) {
-    if (!(e.from < e.to) || e.to >= n || e.from < 0) throw new RangeError(`edge ${e.from}→${e.to} breaks the order`);
+    if (!(e.from < e.to) || e.to >= n || e.from < 0)
+      throw new RangeError(`edge ${e.from}→${e.to} breaks the order`);
     inStart[e.to + 1]!++;
   }
   for (let v = 0; v < n; v++) inStart[v + 1]! += inStart[v]!;
@@ -67,7 +68,8 @@ export function treeScore(g: FragGraph, parent: Int32Array): number {
     if (used.has(g.colour[v]!)) throw new Error(`colour ${g.colour[v]} used twice`);
     used.add(g.colour[v]!);
     let w = Number.NaN;
-    for (let k = g.inStart[v]!; k < g.inStart[v + 1]!; k++) if (g.inFrom[k] === p) w = Math.max(Number.isNaN(w) ? -Infinity : w, g.inWeight[k]!);
+    for (let k = g.inStart[v]!; k < g.inStart[v + 1]!; k++)
+      if (g.inFrom[k] === p) w = Math.max(Number.isNaN(w) ? -Infinity : w, g.inWeight[k]!);
     if (Number.isNaN(w)) throw new Error(`no edge ${p}→${v}`);
     score += w;
   }

@@ -18,7 +18,8 @@ export function solveGreedy(g: FragGraph): TreeSolution {
   const bestFrom = new Int32Array(n).fill(-1);
   // Children lists, to update best[] when a node joins.
   const outStart = new Int32Array(n + 1);
-  for (let v = 0; v < n; v++) for (let k = g.inStart[v]!; k < g.inStart[v + 1]!; k++) outStart[g.inFrom[k]! + 1]!++;
+  for (let v = 0; v < n; v++)
+    for (let k = g.inStart[v]!; k < g.inStart[v + 1]!; k++) outStart[g.inFrom[k]! + 1]!++;
   for (let v = 0; v < n; v++) outStart[v + 1]! += outStart[v]!;
   const fill = outStart.slice(0, n);
   const outTo = new Int32Array(g.inFrom.length);
@@ -85,6 +86,7 @@ export function solveGreedy(g: FragGraph): TreeSolution {
 /** Weight of the best edge u→v (−∞ when none). */
 export function edgeWeight(g: FragGraph, u: number, v: number): number {
   let w = Number.NEGATIVE_INFINITY;
-  for (let k = g.inStart[v]!; k < g.inStart[v + 1]!; k++) if (g.inFrom[k] === u && g.inWeight[k]! > w) w = g.inWeight[k]!;
+  for (let k = g.inStart[v]!; k < g.inStart[v + 1]!; k++)
+    if (g.inFrom[k] === u && g.inWeight[k]! > w) w = g.inWeight[k]!;
   return w;
 }
