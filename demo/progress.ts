@@ -28,7 +28,7 @@ export interface DemoProgress {
   clear(): void;
 }
 
-const BAR = 28;
+const BAR = 20;
 
 /** Creates the demo's progress display (see {@link DemoProgressOptions}). */
 export function createDemoProgress(o: DemoProgressOptions): DemoProgress {
@@ -44,7 +44,7 @@ export function createDemoProgress(o: DemoProgressOptions): DemoProgress {
       `${c.done}/${c.total} spectra`,
       c.annotated !== undefined ? `${c.annotated} annotated` : undefined,
       c.unassigned !== undefined ? `${c.unassigned} unassigned` : undefined,
-      c.errors !== undefined ? `${c.errors} error${c.errors === 1 ? '' : 's'}` : undefined,
+      c.errors ? `${c.errors} error${c.errors === 1 ? '' : 's'}` : undefined,
       state,
     ].filter((x) => x !== undefined);
     if (!bar) return `  ${pct} ${counts.join(' · ')}`;

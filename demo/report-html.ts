@@ -152,9 +152,18 @@ export function stickSpectrumSvg(
     );
   }
   // Grey sticks first, coloured ones on top.
-  const labelled: Array<{ mz: number; rel: number; label: string }> = [];
+  const labelled: Array<{ mz: number; rel: number; label: string; colour?: string }> = [];
   const sticks = [...peaks].map(([mz, i]) => ({ mz, rel: i / maxI, m: labelOf(mz, matched) }));
-  for (const s of sticks.filter((s) => !s.m)) {
+  // The surviving precursor ion: the engine counts it in a tree but does not list it among matched peaks.
+  const isPrecursor = (mz: number) =>
+    precursorMz !== undefined && Math.abs(mz - precursorMz) <= Math.max(0.003, precursorMz * 20e-6);
+  for (const s of sticks.filter((s) => !s.m && isPrecursor(s.mz))) {
+    parts.push(
+      `<line x1="${x(s.mz).toFixed(1)}" y1="${y(0)}" x2="${x(s.mz).toFixed(1)}" y2="${y(s.rel).toFixed(1)}" stroke="#6b7f99" stroke-width="2"><title>m/z ${num(s.mz, 4)} · ${(s.rel * 100).toFixed(1)} % · precursor ion</title></line>`,
+    );
+    labelled.push({ mz: s.mz, rel: s.rel, label: 'precursor', colour: '#4a5a70' });
+  }
+  for (const s of sticks.filter((s) => !s.m && !isPrecursor(s.mz))) {
     parts.push(
       `<line x1="${x(s.mz).toFixed(1)}" y1="${y(0)}" x2="${x(s.mz).toFixed(1)}" y2="${y(s.rel).toFixed(1)}" stroke="#b4bcc5" stroke-width="1.2"><title>m/z ${num(s.mz, 4)} · ${(s.rel * 100).toFixed(1)} % · not explained</title></line>`,
     );
@@ -178,7 +187,7 @@ export function stickSpectrumSvg(
       if (!clash && box.y0 >= 2) {
         placed.push(box);
         parts.push(
-          `<text x="${cx.toFixed(1)}" y="${yy.toFixed(1)}" font-size="11" text-anchor="middle" fill="#1f4e80">${esc(p.label)}</text>`,
+          `<text x="${cx.toFixed(1)}" y="${yy.toFixed(1)}" font-size="11" text-anchor="middle" fill="${p.colour ?? '#1f4e80'}">${esc(p.label)}</text>`,
         );
         break;
       }
@@ -234,7 +243,7 @@ function spectrumBlock(r: SpectrumResult, row: SummaryRow, input: ReportInput): 
   }
   parts.push(stickSpectrumSvg(peaks, best, precursorMz, `stick spectrum of ${r.id}`));
   parts.push(
-    `<div class="key"><span class="swatch" style="background:#2b6cb0"></span>explained by the best candidate<span class="swatch" style="background:#b4bcc5"></span>other peaks (input, before clean-up)<span style="margin-left:10px">▲ precursor m/z</span></div>`,
+    `<div class="key"><span class="swatch" style="background:#2b6cb0"></span>explained by the best candidate<span class="swatch" style="background:#b4bcc5"></span>other peaks (input, before clean-up)<span class="swatch" style="background:#6b7f99"></span>surviving precursor ion<span style="margin-left:10px">▲ precursor m/z</span></div>`,
   );
   if (best) {
     parts.push(

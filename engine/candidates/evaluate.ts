@@ -1,5 +1,5 @@
 import { type Counts, formulaKey, NE } from '../graph/counts.js';
-import type { CationDerivation, Derivation, FragNode, HypothesisGraph } from '../graph/fragment-graph.js';
+import type { CationDerivation, Derivation, FragNode, MatchedHypothesis } from '../graph/fragment-graph.js';
 import type { CompiledRuleSet } from '../rules/compile.js';
 import type { CleanSpectrum } from '../spectrum/clean.js';
 import type { TreeSolution } from '../tree/graph.js';
@@ -142,18 +142,18 @@ function topologiesFor(
 /** One interpretation of a solved hypothesis, screened before its topologies are enumerated. */
 export interface ScreenedInterpretation {
   readonly hypothesis: PrecursorHypothesis;
-  readonly graph: HypothesisGraph;
-  readonly tree: TreeSolution;
+  /** The hypothesis' rule-derived peak readings (its tree is solved only if the interpretation is evaluated). */
+  readonly matched: MatchedHypothesis;
   readonly interpretation: Interpretation;
   /** Index of the composition in `graph.compositions`. */
   readonly comp: number;
   readonly readings: PeakReadings[];
   readonly y0: { counts: Counts; charge: number };
-  /** Score terms that do not depend on the topology (priors included). */
+  /** Score terms that depend neither on the topology nor on the tree (priors included). */
   readonly fixed: number;
   /** The prior part of `fixed` (unit frequencies, ion type). */
   readonly prior: number;
-  /** Upper bound of any topology's score, sharpened by whether the bare Y0 or a cross-ring ion is seen. */
+  /** Upper bound of any topology's score before the tree term, sharpened by whether Y0 or cross-ring ions are seen. */
   readonly screenScore: number;
 }
 
@@ -162,14 +162,13 @@ export interface ScreenedInterpretation {
  * terms that do not depend on the topology, and a bound on the best topology's score.
  */
 export function screenInterpretations(
-  h: PrecursorHypothesis,
-  hg: HypothesisGraph,
-  tree: TreeSolution,
+  hg: MatchedHypothesis,
   spectrum: CleanSpectrum,
   rules: CompiledRuleSet,
   options: EvaluateOptions,
 ): ScreenedInterpretation[] {
   const w = rules.rules.scoring;
+  const h = hg.hypothesis;
   const byPeak = new Map<number, FragNode[]>();
   for (let v = 1; v < hg.nodes.length; v++) {
     const n = hg.nodes[v]!;
@@ -210,7 +209,7 @@ export function screenInterpretations(
     compUnits.forEach((n, u) => {
       prior += n * rules.unitPriors[u]!;
     });
-    const fixed = 0.05 * tree.score - ppmTerm - unknown - 0.1 * nUnits + prior;
+    const fixed = -ppmTerm - unknown - 0.1 * nUnits + prior;
     // Bare Y0 (every unit lost) or a cross-ring ion: without either, every topology pays the Y0 penalty.
     const allKey = removedKey(compUnits);
     const aglyconeSeen = readings.some((r) =>
@@ -219,8 +218,7 @@ export function screenInterpretations(
     const screenScore = 10 * bound[ci]! + fixed - (aglyconeSeen ? 0 : 2 * w.missingIon);
     out.push({
       hypothesis: h,
-      graph: hg,
-      tree,
+      matched: hg,
       interpretation: interp,
       comp: ci,
       readings,
@@ -276,14 +274,16 @@ function peakReadings(
  */
 export function evaluateTopologies(
   s: ScreenedInterpretation,
+  tree: TreeSolution,
   spectrum: CleanSpectrum,
   rules: CompiledRuleSet,
   options: EvaluateOptions,
 ): EvaluatedCandidate[] {
   const w = rules.rules.scoring;
   const window = options.window ?? 4;
-  const { hypothesis: h, interpretation: interp, readings, y0, fixed, tree } = s;
-  const hg = s.graph;
+  const { hypothesis: h, interpretation: interp, readings, y0 } = s;
+  const fixed = s.fixed + 0.05 * tree.score;
+  const hg = s.matched;
   const compUnits = hg.compositions[s.comp]!;
   const precursorShare = spectrum.precursorIndex >= 0 ? spectrum.intensity[spectrum.precursorIndex]! : 0;
   const crossSeen = readings.some((r) => r.list.some((x) => x.kind === 2));

@@ -65,7 +65,8 @@ export function fragmentDelta(ion: IonType, rules: CompiledRuleSet): { counts: C
 const H_MASS = 1.00782503223;
 const WATER = 2 * 1.00782503223 + 15.99491461957;
 
-function hasPeak(s: CleanSpectrum, mz: number, o: PrecursorOptions): boolean {
+/** Index of the (first) peak within tolerance of an m/z, not the precursor; -1 when none. */
+function peakAt(s: CleanSpectrum, mz: number, o: PrecursorOptions): number {
   const tol = tolDa(mz, o.fragmentPpm, o.floorDa);
   let lo = 0;
   let hi = s.mz.length;
@@ -74,7 +75,11 @@ function hasPeak(s: CleanSpectrum, mz: number, o: PrecursorOptions): boolean {
     if (s.mz[m]! < mz - tol) lo = m + 1;
     else hi = m;
   }
-  return lo < s.mz.length && s.mz[lo]! <= mz + tol && lo !== s.precursorIndex;
+  return lo < s.mz.length && s.mz[lo]! <= mz + tol && lo !== s.precursorIndex ? lo : -1;
+}
+
+function hasPeak(s: CleanSpectrum, mz: number, o: PrecursorOptions): boolean {
+  return peakAt(s, mz, o) >= 0;
 }
 
 function compositionRange(masses: Float64Array, lo: number, hi: number): [number, number] {
@@ -155,23 +160,28 @@ export function interpretPrecursor(
     h.interpretations.push({ ion, aglycone: agl, composition: comp, compositionIndex: compIndex });
   };
 
-  for (const ion of ions) {
+  // The window spans the reported precursor m/z and the MS2 precursor peak (their errors differ).
+  const window = (ion: IonType) => {
     const z = ion.charge;
-    if (ion.multiplier !== 1) continue;
-    // The window spans the reported precursor m/z and the MS2 precursor peak (their errors differ).
     const peakMz = spectrum.precursorIndex >= 0 ? spectrum.mz[spectrum.precursorIndex]! : precursorMz;
     const spread = (Math.abs(peakMz - precursorMz) * Math.abs(z)) / 2;
     const atoms = ((precursorMz + peakMz) / 2) * Math.abs(z) + z * ELECTRON_MASS;
-    const tol = tolDa(atoms, options.precursorPpm, 0) + spread;
-    const mNeutral = atoms - ion.deltaMass;
+    return { tol: tolDa(atoms, options.precursorPpm, 0) + spread, mNeutral: atoms - ion.deltaMass };
+  };
+  // Library aglycones first: M = aglycone + composition.
+  for (const ion of ions) {
+    if (ion.multiplier !== 1) continue;
+    const { tol, mNeutral } = window(ion);
     const flavylium = ion.name === '[M]+';
-    // Library aglycones: M = aglycone + composition.
     for (const g of rules.aglyconeGroups) {
       if (g.cation !== flavylium) continue;
       const [a, b] = compositionRange(masses, mNeutral - g.mass - tol, mNeutral - g.mass + tol);
       for (let k = a; k < b; k++) add(ion, { kind: 'library', group: g }, k, g.counts);
     }
-    if (flavylium) continue;
+  }
+  for (const ion of ions) {
+    if (ion.multiplier !== 1 || ion.name === '[M]+') continue;
+    const { tol, mNeutral } = window(ion);
     // Unknown aglycones: an intense fragment is the Y0; the precursor minus it is a composition; the
     // aglycone's formula is the decomposition of the precursor minus the composition (precursor tolerance).
     const frag = fragmentDelta(ion, rules);

@@ -8,7 +8,12 @@ import {
   screenInterpretations,
 } from '../candidates/evaluate.js';
 import { interpretPrecursor } from '../candidates/precursor.js';
-import { finishGraph, type HypothesisGraph, matchHypothesis } from '../graph/fragment-graph.js';
+import {
+  finishGraph,
+  type HypothesisGraph,
+  type MatchedHypothesis,
+  matchHypothesis,
+} from '../graph/fragment-graph.js';
 import type { SpectrumResult } from '../report/result.js';
 import { buildAnnotatedResult, unassignedResult } from '../report/build-result.js';
 import type { CompiledRuleSet } from '../rules/compile.js';
@@ -25,7 +30,12 @@ import type { TreeSolution } from '../tree/graph.js';
 import { solveTree } from '../tree/solve.js';
 
 /** Interpretations (aglycone + composition) whose topologies are enumerated per spectrum. */
-const MAX_INTERPRETATIONS = 6;
+const MAX_INTERPRETATIONS = 10;
+
+/** What the tree can add to a candidate's score at most (0.05 × at most ~4 per edge). */
+function treeAllowance(m: MatchedHypothesis): number {
+  return 0.2 * m.nodes.length;
+}
 
 /** A candidate structure a user supplies, in Peel's stacking notation (docs/stacking-notation.md). */
 export interface UserCandidate {
@@ -118,29 +128,35 @@ function scoreUnchecked(
   const best = { score: Number.NEGATIVE_INFINITY };
   const window = 4;
   const evaluateOptions = { precursorPpm, polarity, best, window };
-  // Solve the trees of the hypotheses that can still compete, and screen their interpretations.
-  const solved: SolvedHypothesis[] = [];
+  // Screen the interpretations of the hypotheses that can still compete (no tree yet).
   const screened: ScreenedInterpretation[] = [];
   let bestScreen = Number.NEGATIVE_INFINITY;
   for (const { m, bound } of matched) {
     // The tree adds at most ~0.2 per node to a candidate's score (0.05 × ≤ 4 per edge).
-    if (10 * bound + 0.2 * m.nodes.length < bestScreen - window) continue;
-    const graph = finishGraph(m, clean, compiled, graphOptions);
-    const tree = solveTree(graph.graph);
-    const s = { graph, tree, candidates: [] as EvaluatedCandidate[] };
-    solved.push(s);
-    for (const x of screenInterpretations(m.hypothesis, graph, tree, clean, compiled, evaluateOptions)) {
+    if (10 * bound + treeAllowance(m) < bestScreen - window) continue;
+    for (const x of screenInterpretations(m, clean, compiled, evaluateOptions)) {
       screened.push(x);
       if (x.screenScore > bestScreen) bestScreen = x.screenScore;
     }
   }
-  // Enumerate topologies for the best few interpretations only: their number grows fast with size.
-  screened.sort((a, b) => b.screenScore - a.screenScore);
+  // Solve trees and enumerate topologies for the best few interpretations only.
+  screened.sort(
+    (a, b) => b.screenScore + treeAllowance(b.matched) - (a.screenScore + treeAllowance(a.matched)),
+  );
+  const solved: SolvedHypothesis[] = [];
+  const solvedOf = new Map<MatchedHypothesis, SolvedHypothesis>();
   let evaluated = 0;
   for (const x of screened) {
-    if (evaluated >= MAX_INTERPRETATIONS || x.screenScore < best.score - window) break;
-    const s = solved.find((y) => y.graph === x.graph)!;
-    s.candidates.push(...evaluateTopologies(x, clean, compiled, evaluateOptions));
+    if (evaluated >= MAX_INTERPRETATIONS || x.screenScore + treeAllowance(x.matched) < best.score - window)
+      break;
+    let s = solvedOf.get(x.matched);
+    if (!s) {
+      const graph = finishGraph(x.matched, clean, compiled, graphOptions);
+      s = { graph, tree: solveTree(graph.graph), candidates: [] };
+      solvedOf.set(x.matched, s);
+      solved.push(s);
+    }
+    s.candidates.push(...evaluateTopologies(x, s.tree, clean, compiled, evaluateOptions));
     evaluated++;
   }
   const userNotes: string[] = [];
@@ -183,9 +199,10 @@ function scoreUserCandidate(
   const h = userHypothesis(st, spectrum, clean, compiled, polarity, evaluateOptions.precursorPpm);
   if (!h)
     return `User candidate ${label} fits the precursor m/z ${spectrum.precursor.mz} under no ion type of the rule set.`;
-  const graph = finishGraph(matchHypothesis(h, clean, compiled, graphOptions), clean, compiled, graphOptions);
+  const matched = matchHypothesis(h, clean, compiled, graphOptions);
+  const graph = finishGraph(matched, clean, compiled, graphOptions);
   const tree = solveTree(graph.graph);
-  const [screened] = screenInterpretations(h, graph, tree, clean, compiled, evaluateOptions);
+  const [screened] = screenInterpretations(matched, clean, compiled, evaluateOptions);
   if (!screened) return `User candidate ${label} not scored.`;
   const topo = makeTopology(
     st.unit,
@@ -194,7 +211,7 @@ function scoreUserCandidate(
     canonical(st.unit, st.parent, st.linkage, compiled.units),
     compiled.units.length,
   );
-  const candidates = evaluateTopologies(screened, clean, compiled, {
+  const candidates = evaluateTopologies(screened, tree, clean, compiled, {
     ...evaluateOptions,
     only: topo,
     best: { score: Number.NEGATIVE_INFINITY },
