@@ -248,13 +248,18 @@ export async function runDemo(o: DemoOptions): Promise<DemoOutcome> {
     precursors: inputs.precursors,
     ...(document.disclaimer ? { disclaimer: document.disclaimer } : {}),
   });
-  await mkdir(outDir, { recursive: true });
-  await Promise.all([
-    writeFile(out.json, texts.json),
-    writeFile(out.csv, texts.csv),
-    writeFile(out.mztab, texts.mztab),
-    writeFile(out.html, html),
-  ]);
+  try {
+    await mkdir(outDir, { recursive: true });
+    await Promise.all([
+      writeFile(out.json, texts.json),
+      writeFile(out.csv, texts.csv),
+      writeFile(out.mztab, texts.mztab),
+      writeFile(out.html, html),
+    ]);
+  } catch (err) {
+    const code = (err as NodeJS.ErrnoException).code ?? (err as Error).message;
+    throw new DemoError(`cannot write the results to ${show(outDir)} (${code})`, 'output', { cause: err });
+  }
 
   print();
   print(

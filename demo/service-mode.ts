@@ -15,7 +15,7 @@ export class DemoError extends Error {
   override readonly name = 'DemoError' as const;
   constructor(
     message: string,
-    readonly code: 'aborted' | 'redis-unreachable' | 'service' | 'http' | 'batch' | 'input',
+    readonly code: 'aborted' | 'redis-unreachable' | 'service' | 'http' | 'batch' | 'input' | 'output',
     options?: { cause?: unknown },
   ) {
     super(message, options);

@@ -287,6 +287,24 @@ export function evaluateTopologies(
   const compUnits = hg.compositions[s.comp]!;
   const precursorShare = spectrum.precursorIndex >= 0 ? spectrum.intensity[spectrum.precursorIndex]! : 0;
   const crossSeen = readings.some((r) => r.list.some((x) => x.kind === 2));
+  // Interpretations that share a composition and its readings (same-formula aglycone groups, ion types)
+  // rank the topologies identically: reuse the first search, shifted by the difference in fixed terms.
+  const shared = options.only ? undefined : topologyRuns.get(readings);
+  if (shared && shared.comp === s.comp) {
+    const shift = fixed - shared.fixed;
+    const priorShift = s.prior - shared.prior;
+    return keepBest(
+      shared.candidates.map((c) => ({
+        ...c,
+        hypothesis: h,
+        interpretation: interp,
+        y0,
+        score: c.score + shift,
+        evidence: c.evidence + shift - priorShift,
+      })),
+      options.best.score - window,
+    );
+  }
   const chosen = new Int16Array(readings.length);
   const perComposition: EvaluatedCandidate[] = [];
   const seenLoss = new Set<number>();
@@ -378,12 +396,24 @@ export function evaluateTopologies(
       cache: searchCacheFor(rules),
     });
   }
-  // Keep the best few distinct stackings.
-  perComposition.sort((a, b) => b.score - a.score);
+  if (!options.only)
+    topologyRuns.set(readings, { comp: s.comp, fixed, prior: s.prior, candidates: perComposition });
+  return keepBest(perComposition, options.best.score - window);
+}
+
+/** Searches already run, by the readings they scored (readings are shared within one hypothesis). */
+const topologyRuns = new WeakMap<
+  readonly PeakReadings[],
+  { comp: number; fixed: number; prior: number; candidates: EvaluatedCandidate[] }
+>();
+
+/** The best few distinct stackings at or above a score. */
+function keepBest(list: EvaluatedCandidate[], floor: number): EvaluatedCandidate[] {
+  const sorted = [...list].sort((a, b) => b.score - a.score);
   const out: EvaluatedCandidate[] = [];
   const seen = new Set<string>();
-  for (const c of perComposition) {
-    if (out.length >= 12 || c.score < options.best.score - window) break;
+  for (const c of sorted) {
+    if (out.length >= 12 || c.score < floor) break;
     if (seen.has(c.topology.notation)) continue;
     seen.add(c.topology.notation);
     out.push(c);
