@@ -43,11 +43,16 @@ export async function probeRedis(
       maxRetriesPerRequest: 0,
       enableOfflineQueue: false,
       retryStrategy: () => null,
+      disconnectTimeout: 200,
     });
   } catch (err) {
     return { ok: false, reason: (err as Error).message };
   }
-  redis.on('error', () => {});
+  // The first socket error says why (ECONNREFUSED, ENOTFOUND …); the rejected connect only says "closed".
+  let first: NodeJS.ErrnoException | undefined;
+  redis.on('error', (err: NodeJS.ErrnoException) => {
+    first ??= err;
+  });
   let timer: NodeJS.Timeout | undefined;
   try {
     await Promise.race([
@@ -58,11 +63,13 @@ export async function probeRedis(
     ]);
     return { ok: true };
   } catch (err) {
-    const e = err as NodeJS.ErrnoException;
-    return { ok: false, reason: e.code ? `${e.code}` : e.message };
+    const e = first ?? (err as NodeJS.ErrnoException);
+    if (/RESP/.test(e.message)) return { ok: false, reason: 'something answered there, but not Redis' };
+    return { ok: false, reason: e.code ?? e.message };
   } finally {
     clearTimeout(timer);
-    redis.disconnect();
+    // disconnect() on a connection that already ended would hold the process for ioredis's disconnectTimeout.
+    if (redis.status !== 'end') redis.disconnect();
   }
 }
 

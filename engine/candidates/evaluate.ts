@@ -41,6 +41,8 @@ export interface Reading {
   readonly key: number;
   /** 0 a Y ion itself, 1 a Y ion after small losses, 2 a cross-ring ion, 3 an oxonium or acylium ion. */
   readonly kind: 0 | 1 | 2 | 3;
+  /** Cross-ring ions: the residue (unit index) of each cleavage; they must be C-linked in the topology. */
+  readonly cleaved?: readonly number[];
   readonly weight: number;
 }
 
@@ -246,12 +248,17 @@ function peakReadings(
         if (d.comp !== ci || !cores[d.core]) continue;
         const combo = rules.lossCombos[d.combo]!;
         const kind = combo.crossRing >= 0 ? 2 : combo.size === 0 ? 0 : 1;
+        const cleaved =
+          kind === 2
+            ? [combo.crossRing, combo.crossRing2].filter((x) => x >= 0).map((x) => rules.crossRingResidue[x]!)
+            : undefined;
         list.push({
           node: n,
           deriv: d,
           key: removedKey(d.removed),
           kind,
           weight: kind === 2 ? 1 : 0.7 ** combo.size,
+          ...(cleaved ? { cleaved } : {}),
         });
       }
       for (const c of n.cations) {
@@ -324,7 +331,9 @@ export function evaluateTopologies(
       for (let k = 0; k < list.length; k++) {
         const x = list[k]!;
         const ok =
-          x.kind === 3 ? topo.bUnits.has(x.key) : topo.yLosses.has(x.key) && (x.kind !== 2 || topo.cLinked);
+          x.kind === 3
+            ? topo.bUnits.has(x.key)
+            : topo.yLosses.has(x.key) && (x.kind !== 2 || cleavable(topo, x.cleaved!));
         if (!ok) continue;
         chosen[r] = k;
         explained += intensity;
@@ -334,7 +343,9 @@ export function evaluateTopologies(
           if (x.key === topo.y0Loss) y0Seen = true;
         } else if (x.kind === 2) {
           crossIntensity += intensity;
-          seenCross.add(rules.lossCombos[x.deriv!.combo]!.crossRing);
+          const combo = rules.lossCombos[x.deriv!.combo]!;
+          seenCross.add(combo.crossRing);
+          if (combo.crossRing2 >= 0) seenCross.add(combo.crossRing2);
         }
         break;
       }
@@ -399,6 +410,14 @@ export function evaluateTopologies(
   if (!options.only)
     topologyRuns.set(readings, { comp: s.comp, fixed, prior: s.prior, candidates: perComposition });
   return keepBest(perComposition, options.best.score - window);
+}
+
+/** Whether a topology has C-linked residues for every cleavage of a cross-ring reading. */
+function cleavable(topo: Topology, cleaved: readonly number[]): boolean {
+  if (!topo.cLinked) return false;
+  if (cleaved.length === 1) return topo.cCounts[cleaved[0]!]! >= 1;
+  const [a, b] = cleaved as [number, number];
+  return a === b ? topo.cCounts[a]! >= 2 : topo.cCounts[a]! >= 1 && topo.cCounts[b]! >= 1;
 }
 
 /** Searches already run, by the readings they scored (readings are shared within one hypothesis). */
@@ -483,9 +502,13 @@ function yLabel(d: Derivation, comp: Uint8Array, rules: CompiledRuleSet, isY0: b
   else if (residuesLost === 0) base = `M−${describeRemoved(d.removed, rules, 'acyl')}`;
   else base = isY0 ? 'Y0' : `Y${kept}`;
   if (combo.crossRing >= 0) {
-    const x = rules.crossRingNames[combo.crossRing]!;
-    const water = combo.size > 1 ? '−H2O' : '';
-    return `${x}${kept > 0 ? kept : ''}${water}`;
+    // Domon–Costello ⁰˒ʲX with the residue count kept; both cleavages of a di-C-glycoside are named.
+    const names = [combo.crossRing, combo.crossRing2]
+      .filter((x) => x >= 0)
+      .map((x) => rules.crossRingNames[x]!);
+    const crossCount = names.length;
+    const water = combo.size > crossCount ? '−H2O' : '';
+    return `${names.join('/')}${kept > 0 ? kept : ''}${water}`;
   }
   let label = base;
   if (d.radical) label = `[${base}−H]•`;

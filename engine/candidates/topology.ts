@@ -20,6 +20,8 @@ export interface Topology {
   readonly y0Loss: number;
   /** Whether some residue is C-linked (cross-ring ions expected, no loss of that residue). */
   readonly cLinked: boolean;
+  /** C-linked instances per unit index. */
+  readonly cCounts: Uint8Array;
 }
 
 /** A number identifying a unit count vector (counts < 8 per unit). */
@@ -371,5 +373,6 @@ export function makeTopology(
     bUnits,
     y0Loss: removedKey(counts),
     cLinked: fixed.some(Boolean),
+    cCounts: Uint8Array.from({ length: nUnits }, (_, u) => unit.filter((x, i) => x === u && fixed[i]).length),
   };
 }

@@ -259,9 +259,13 @@ export function matchHypothesis(
         for (let k = 0; k < combos.length; k++) {
           const combo = combos[k]!;
           if (combo.crossRing >= 0) {
-            // Cross-ring cleavage needs its C-linkable residue still in the fragment.
-            const r = rules.crossRingResidue[combo.crossRing]!;
-            if (!hasC || compUnits[r]! - removed[r]! < 1) continue;
+            // Cross-ring cleavage needs its C-linkable residue(s) still in the fragment.
+            if (!hasC) continue;
+            const r1 = rules.crossRingResidue[combo.crossRing]!;
+            const r2 = combo.crossRing2 >= 0 ? rules.crossRingResidue[combo.crossRing2]! : -1;
+            const need1 = 1 + (r2 === r1 ? 1 : 0);
+            if (compUnits[r1]! - removed[r1]! < need1) continue;
+            if (r2 >= 0 && r2 !== r1 && compUnits[r2]! - removed[r2]! < 1) continue;
           } else if (combo.size > 1 && !ladderEnd) continue;
           const maxRadical =
             options.polarity === 'negative' && !combo.radical && removedCount === total && combo.size <= 1
@@ -483,7 +487,9 @@ export function edgePrior(
       const cp = rules.lossCombos[dp.combo]!;
       const cc = rules.lossCombos[dc.combo]!;
       const smallLost = cc.size - cp.size;
-      const crossLost = cc.crossRing >= 0 && cp.crossRing < 0;
+      const crossLost =
+        (cc.crossRing >= 0 ? 1 : 0) + (cc.crossRing2 >= 0 ? 1 : 0) >
+        (cp.crossRing >= 0 ? 1 : 0) + (cp.crossRing2 >= 0 ? 1 : 0);
       const adductLost = dc.core !== dp.core;
       const radicalLost = dc.radical !== dp.radical;
       if (unitsLost === 0 && smallLost === 0 && !adductLost && !radicalLost) continue;

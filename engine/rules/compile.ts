@@ -33,6 +33,8 @@ export interface LossCombo {
   readonly repeats: Uint8Array;
   /** Index of the cross-ring rule used, or -1. */
   readonly crossRing: number;
+  /** Index of a second cross-ring rule (both sugars of a di-C-glycoside cleaved), or -1. */
+  readonly crossRing2: number;
   readonly counts: Counts;
   readonly mass: number;
   /** Number of single losses combined (a cross-ring loss counts as one). */
@@ -214,7 +216,15 @@ export function compileRuleSet(rules: RuleSet): CompiledRuleSet {
     for (let b = 0; b < n; b++) {
       const A = lossCombos[a]!;
       const B = lossCombos[b]!;
-      let ok = A.crossRing < 0 || A.crossRing === B.crossRing;
+      // A's cross-ring cleavages must be among B's.
+      const bx = [B.crossRing, B.crossRing2];
+      let ok = true;
+      for (const x of [A.crossRing, A.crossRing2]) {
+        if (x < 0) continue;
+        const k = bx.indexOf(x);
+        if (k < 0) ok = false;
+        else bx[k] = -2;
+      }
       for (let k = 0; ok && k < A.repeats.length; k++) ok = A.repeats[k]! <= B.repeats[k]!;
       comboNested[a * n + b] = ok ? 1 : 0;
     }
@@ -296,22 +306,23 @@ function enumerateCompositions(
   return out;
 }
 
-/** Small-loss combinations of at most two single losses (and 3H2O, 2H2O+CO), or one cross-ring loss (+H2O). */
+/** Small-loss combinations of at most two single losses (and 3H2O, 2H2O+CO), or one or two cross-ring losses (+H2O). */
 function enumerateLossCombos(rules: RuleSet): LossCombo[] {
   const small = rules.smallLosses.map((l, i) => ({ ...l, ...formulaCounts(l.formula, `smallLosses[${i}]`) }));
   const cross = rules.crossRing.map((x, i) => ({ ...x, ...formulaCounts(x.formula, `crossRing[${i}]`) }));
   const water = small.findIndex((l) => l.formula.replace(/\s/g, '') === 'H2O');
   const out: LossCombo[] = [];
   const rep = new Uint8Array(small.length);
-  const emit = (crossRing: number) => {
+  const emit = (crossRing: number, crossRing2 = -1) => {
     const counts = new Int32Array(NE);
     const parts: string[] = [];
     let size = 0;
     let radical = false;
     let positive = true;
     let negative = true;
-    if (crossRing >= 0) {
-      const x = cross[crossRing]!;
+    for (const c of [crossRing, crossRing2]) {
+      if (c < 0) continue;
+      const x = cross[c]!;
       for (let e = 0; e < NE; e++) counts[e]! += x.counts[e]!;
       parts.push(x.name);
       size++;
@@ -329,6 +340,7 @@ function enumerateLossCombos(rules: RuleSet): LossCombo[] {
     out.push({
       repeats: rep.slice(),
       crossRing,
+      crossRing2,
       counts,
       mass: countsMass(counts),
       size,
@@ -372,6 +384,16 @@ function enumerateLossCombos(rules: RuleSet): LossCombo[] {
       rep[water] = 1;
       emit(c);
       rep[water] = 0;
+    }
+    // Both C-linked sugars of a di-C-glycoside cleaved (the second rule index not below the first).
+    for (let c2 = c; c2 < cross.length; c2++) {
+      rep.fill(0);
+      emit(c, c2);
+      if (x.withWater && water >= 0) {
+        rep[water] = 1;
+        emit(c, c2);
+        rep[water] = 0;
+      }
     }
   });
   out.sort((a, b) => a.size - b.size || a.mass - b.mass);
