@@ -33,6 +33,7 @@ export type CandidatesIssueCode =
   | 'unknown-aglycone'
   | 'unknown-residue'
   | 'not-c-linkable'
+  | 'acyl-carries'
   | 'duplicate-structure'
   | 'empty';
 
@@ -110,7 +111,12 @@ export const CandidatesRowSchema = z.object({
 export interface StructureProblem {
   code: Extract<
     CandidatesIssueCode,
-    'structure-syntax' | 'bad-formula' | 'unknown-aglycone' | 'unknown-residue' | 'not-c-linkable'
+    | 'structure-syntax'
+    | 'bad-formula'
+    | 'unknown-aglycone'
+    | 'unknown-residue'
+    | 'not-c-linkable'
+    | 'acyl-carries'
   >;
   offset: number;
   message: string;
@@ -140,9 +146,10 @@ export function structureNames(rules: ParseCandidatesOptions['rules']): KnownNam
 const NAME_CHARS = /^[A-Za-z0-9(][A-Za-z0-9,'′″\-_ ()]*$/;
 
 /**
- * Checks one structure in the stacking notation: `AGLYCONE` or `<FORMULA>`, then groups `[UNIT …]` where a
- * UNIT is a residue (optionally `C-` for a C-glycosidic bond) or an acyl group, and may itself carry groups
- * (`Hex[Pen]`, `Hex[malonyl]`). With `names`, every name must be one of the rule set's.
+ * Checks one structure in the stacking notation (docs/stacking-notation.md): `AGLYCONE` or a neutral
+ * `<FORMULA>`, then groups `[UNIT …]` where a UNIT is a residue (optionally `C-` for a C-glycosidic bond to the
+ * aglycone, or `O-`) or an acyl group; a residue may carry groups (`Hex[Pen]`, `Hex[malonyl]`), an acyl group
+ * none. With `names`, every name must be one of the rule set's.
  */
 export function checkStructure(text: string, names?: KnownNames): StructureProblem[] {
   const problems: StructureProblem[] = [];
@@ -165,8 +172,9 @@ export function checkStructure(text: string, names?: KnownNames): StructureProbl
     const formula = text.slice(1, close);
     try {
       const f = parseFormula(formula);
-      if (f.charge < 0)
-        problem('bad-formula', 1, `the aglycone formula ${formula} carries a negative charge`);
+      if (f.charge !== 0) {
+        problem('bad-formula', 1, `give the aglycone's neutral formula, without a charge (not ${formula})`);
+      }
     } catch (err) {
       problem('bad-formula', 1, `"${formula}" is not a formula: ${(err as Error).message}`);
     }
@@ -203,11 +211,14 @@ export function checkStructure(text: string, names?: KnownNames): StructureProbl
     const raw = text.slice(i, j);
     const unit = raw.trim();
     const at = i + (raw.length - raw.trimStart().length);
+    let acyl = false;
     if (unit.length === 0) {
       problem('structure-syntax', i, 'empty brackets: a residue or acyl group name goes inside');
     } else {
-      const cLinked = unit.startsWith('C-');
-      const name = cLinked ? unit.slice(2) : unit;
+      const prefix = /^[CO]-/.test(unit) ? unit[0] : undefined;
+      const name = prefix ? unit.slice(2) : unit;
+      const cLinked = prefix === 'C';
+      const onSugar = 'only a residue bound to the aglycone can be C-linked, not one on a sugar';
       if (!NAME_CHARS.test(name)) {
         problem('structure-syntax', at, `"${unit}" is not a residue or acyl group name`);
       } else if (names) {
@@ -215,10 +226,13 @@ export function checkStructure(text: string, names?: KnownNames): StructureProbl
         if (residue) {
           if (cLinked && !residue.cLinked) {
             problem('not-c-linkable', at, `the rule set does not allow ${name} as a C-glycoside`);
+          } else if (cLinked && depth > 0) {
+            problem('not-c-linkable', at, onSugar);
           }
         } else if (names.acyls.has(name)) {
-          if (cLinked)
-            problem('not-c-linkable', at, `${name} is an acyl group (ester), not a C-linked sugar`);
+          acyl = true;
+          if (prefix)
+            problem('not-c-linkable', at, `${name} is an acyl group (an ester): no C- or O- before it`);
         } else {
           problem(
             'unknown-residue',
@@ -226,9 +240,18 @@ export function checkStructure(text: string, names?: KnownNames): StructureProbl
             `"${name}" is neither a residue nor an acyl group of the rule set${suggest(name)}`,
           );
         }
+      } else if (cLinked && depth > 0) {
+        problem('not-c-linkable', at, onSugar);
       }
     }
     i = j;
+    if (acyl && text[i] === '[') {
+      problem(
+        'acyl-carries',
+        i,
+        'an acyl group carries nothing: put the unit on a sugar or the aglycone instead',
+      );
+    }
     while (i < text.length && text[i] === '[') {
       if (depth > 20) {
         problem('structure-syntax', i, 'groups nested more than 20 deep');

@@ -1,3 +1,4 @@
+import { isotopePattern, scoreIsotopePattern } from '../chem/isotopes.js';
 import { type Counts, formulaKey, NE } from '../graph/counts.js';
 import type { CationDerivation, Derivation, FragNode, MatchedHypothesis } from '../graph/fragment-graph.js';
 import type { CompiledRuleSet } from '../rules/compile.js';
@@ -72,6 +73,8 @@ export interface EvaluateOptions {
   enumerateUpTo?: number;
   /** Score this one topology only (a user-supplied candidate). */
   only?: Topology;
+  /** The precursor's MS1 isotope envelope (`[m/z, intensity]`, monoisotopic first), when the input gave it. */
+  envelope?: readonly (readonly [number, number])[];
 }
 
 /**
@@ -180,6 +183,16 @@ export function screenInterpretations(
   }
   const bound = compositionBounds(hg.nodes, hg.compositions.length, spectrum, rules);
   const readingsOf = new Map<string, PeakReadings[]>();
+  // MS1 isotope envelope against the precursor formula: 4 × (similarity − 0.75), so a close fit (≥ 0.95)
+  // adds ~0.8 and a poor one (0.5) costs 1; a sulphur or chlorine formula shows in its M+2 peak.
+  let envelopeTerm = 0;
+  if (options.envelope && options.envelope.length >= 2) {
+    const predicted = isotopePattern({ counts: Array.from(h.counts), charge: h.charge });
+    const fit = scoreIsotopePattern(options.envelope, predicted, {
+      tolerance: { ppm: options.precursorPpm * 2, floorDa: 0.002 },
+    });
+    envelopeTerm = w.isotopeEnvelope * 4 * (fit.similarity - 0.75);
+  }
   const out: ScreenedInterpretation[] = [];
   for (const interp of h.interpretations) {
     const ci = hg.compositions.indexOf(interp.composition.units);
@@ -211,7 +224,7 @@ export function screenInterpretations(
     compUnits.forEach((n, u) => {
       prior += n * rules.unitPriors[u]!;
     });
-    const fixed = -ppmTerm - unknown - 0.1 * nUnits + prior;
+    const fixed = -ppmTerm - unknown - 0.1 * nUnits + prior + envelopeTerm;
     // Bare Y0 (every unit lost) or a cross-ring ion: without either, every topology pays the Y0 penalty.
     const allKey = removedKey(compUnits);
     const aglyconeSeen = readings.some((r) =>

@@ -110,6 +110,8 @@ export const ScoringSchema = z
     acylOnAglycone: z.number().min(0).default(0.5),
     /** Prior cost of a C-glycosidic residue (O-glycosides are commoner when the evidence is equal). */
     cLinkage: z.number().min(0).default(0.3),
+    /** Weight of the MS1 isotope envelope's agreement with the precursor formula, when one is given. */
+    isotopeEnvelope: z.number().min(0).default(1),
     /** Penalty for each strong ion a candidate predicts that is missing. */
     missingIon: z.number().default(1.5),
     /** Minimum fraction of the spectrum's intensity a candidate must explain to be reported. */

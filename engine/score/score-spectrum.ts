@@ -127,7 +127,13 @@ function scoreUnchecked(
     .sort((a, b) => b.bound - a.bound);
   const best = { score: Number.NEGATIVE_INFINITY };
   const window = 4;
-  const evaluateOptions = { precursorPpm, polarity, best, window };
+  const evaluateOptions: EvaluateOptions = {
+    precursorPpm,
+    polarity,
+    best,
+    window,
+    ...(spectrum.isotopes ? { envelope: spectrum.isotopes } : {}),
+  };
   // Screen the interpretations of the hypotheses that can still compete (no tree yet).
   const screened: ScreenedInterpretation[] = [];
   let bestScreen = Number.NEGATIVE_INFINITY;

@@ -160,13 +160,14 @@ describe('stacking notation check', () => {
     'cyanidin[Hex[Pen]]',
     'cyanidin[Hex][Hex]',
     '<C16H12O6>[Hex]',
-    '<C15H11O6+>[Hex]',
     'apigenin[C-Hex]',
     'cyanidin[Hex[malonyl]]',
     'malvidin[Hex[p-coumaroyl]]',
     '(epi)catechin[Hex]',
     'caffeic acid[Hex]',
     'quercetin[Hex[dHex]]',
+    'quercetin[O-Hex]',
+    'apigenin[C-Hex[Pen]]',
   ])('accepts %s', (s) => {
     expect(checkStructure(s, names())).toEqual([]);
   });
@@ -183,6 +184,10 @@ describe('stacking notation check', () => {
     ['cyanidin[hex]', 'unknown-residue', 9],
     ['cyanidin[C-malonyl]', 'not-c-linkable', 9],
     ['cyanidin[Hex] x', 'structure-syntax', 14],
+    ['<C15H11O6+>[Hex]', 'bad-formula', 1],
+    ['apigenin[Hex[C-Hex]]', 'not-c-linkable', 13],
+    ['cyanidin[Hex[malonyl[Hex]]]', 'acyl-carries', 20],
+    ['cyanidin[O-malonyl]', 'not-c-linkable', 9],
   ])('rejects %s (%s at %i)', (s, code, offset) => {
     const p = checkStructure(s, names());
     expect(p[0]).toMatchObject({ code, offset });
