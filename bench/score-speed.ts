@@ -131,7 +131,10 @@ export async function run(args: string[]): Promise<void> {
         `${medianSet[i]!.id} (${median.perSpectrumMs[i]!.toFixed(1)} ms, ${medianSet[i]!.peaks.length} peaks)`,
     );
   const rate = per / median.seconds;
-  const verdict = rate >= TARGET_PER_SECOND ? 'met' : '**not met**';
+  // Judged per CPU-second: it neither counts time lost to other processes (wall > CPU under load) nor hides
+  // the GC's helper threads (CPU > wall), so it is the capacity of one core.
+  const oneCore = per / median.cpuSeconds;
+  const verdict = oneCore >= TARGET_PER_SECOND ? 'met' : '**not met**';
   const fmt = (n: number) => Math.round(n).toLocaleString('en-US');
   const la = (l: number[]) => l.map((x) => x.toFixed(2)).join(' / ');
 
@@ -154,12 +157,12 @@ cores — other processes on the machine slow the wall clock; CPU time is less a
 | measure | value |
 |---|---|
 | throughput, median pass (all passes) | **${fmt(rate)} spectra/s** (${rates.map(fmt).join(', ')}); best ${fmt(per / best.seconds)} |
-| throughput per CPU-second, median pass | ${fmt(per / median.cpuSeconds)} spectra/s |
+| throughput per CPU-second, median pass (CPU time of every thread of the process, the GC's included: the one-core equivalent) | ${fmt(per / median.cpuSeconds)} spectra/s (CPU ${(median.cpuSeconds / median.seconds).toFixed(2)} × wall time) |
 | time per spectrum: mean / p50 / p95 / p99 / max | ${mean.toFixed(3)} / ${quantile(sorted, 0.5).toFixed(3)} / ${quantile(sorted, 0.95).toFixed(3)} / ${quantile(sorted, 0.99).toFixed(3)} / ${sorted.at(-1)!.toFixed(1)} ms |
 | results | ${fmt(status.annotated)} annotated, ${fmt(status.unassigned)} unassigned, ${fmt(status.error)} errors |
 | trees: exact / heuristic (share of spectra with a tree) | ${fmt(solver.exact)} (${pct(solver.exact, withTree)}) / ${fmt(solver.heuristic)} (${pct(solver.heuristic, withTree)}); ${fmt(solver.none)} spectra without a tree |
 | slowest spectra (median pass) | ${slowest.join('; ')} |
-| target: ≥ ${fmt(TARGET_PER_SECOND)} spectra/s on one core | ${verdict} (${(rate / TARGET_PER_SECOND).toFixed(2)} × target) |
+| target: ≥ ${fmt(TARGET_PER_SECOND)} spectra/s on one core (per CPU-second) | ${verdict} (${(oneCore / TARGET_PER_SECOND).toFixed(2)} × target; wall clock ${(rate / TARGET_PER_SECOND).toFixed(2)} ×) |
 `;
   writeSection('score-speed', md);
   console.log(md);

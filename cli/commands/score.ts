@@ -443,7 +443,7 @@ export const scoreCommand: Command = async (argv: string[], io: CliIo) => {
   const warn = s.warnings > 0 ? `, ${fmt(s.warnings)} reader warning(s)` : '';
   println(
     io.stderr,
-    `peel score: ${fmt(s.done)} spectra from ${s.files} file${s.files === 1 ? '' : 's'} in ${s.seconds.toFixed(1)} s ` +
+    `peel score: ${fmt(s.done)} ${s.done === 1 ? 'spectrum' : 'spectra'} from ${s.files} file${s.files === 1 ? '' : 's'} in ${s.seconds.toFixed(1)} s ` +
       `(${fmt(rate)}/s): ${fmt(s.annotated)} annotated, ${fmt(s.unassigned)} unassigned, ${fmt(s.errors)} error${s.errors === 1 ? '' : 's'}${warn}; ` +
       `rule set ${ref.name} ${ref.version}; ${flags.format}${outPath ? ` written to ${flags.out}` : ' on standard output'}`,
   );
