@@ -5,6 +5,7 @@ import type { ResultsWriter } from '../formats/results-writer.js';
 import { createCsvWriter } from '../formats/write-csv.js';
 import { createJsonWriter } from '../formats/write-json.js';
 import { createMzTabWriter } from '../formats/write-mztab.js';
+import type { RuleSet } from '../engine/rules/schema.js';
 import { createNdjsonWriter } from '../formats/write-ndjson.js';
 import type { BatchRecord } from '../store/store.js';
 import { ownBatch } from './batches.js';
@@ -86,7 +87,7 @@ async function* readResults(
   }
 }
 
-function writerFor(format: Format, res: Response, b: BatchRecord): ResultsWriter {
+function writerFor(format: Format, res: Response, b: BatchRecord, rules: RuleSet | null): ResultsWriter {
   switch (format) {
     case 'json':
       return createJsonWriter(res);
@@ -96,6 +97,8 @@ function writerFor(format: Format, res: Response, b: BatchRecord): ResultsWriter
       return createCsvWriter(res);
     case 'mztab':
       return createMzTabWriter(res, {
+        // Same-formula alternatives each get their own molecule and ion type, as `peel score` writes them.
+        ...(rules ? { aglycones: rules.aglycones } : {}),
         softwareVersion: peelVersion(),
         mzTabId: `peel-${b.id}`,
         msRuns: [
@@ -146,7 +149,8 @@ export function resultRoutes(ctx: AppContext): Router {
       return;
     }
 
-    const writer = writerFor(format, res, b);
+    const rules = format === 'mztab' ? await ctx.store.getRuleSet(b.ruleset.sha256) : null;
+    const writer = writerFor(format, res, b, rules);
     // attachment() sets a type from the file name: set the writer's type after it.
     if (format === 'csv') res.attachment(`${b.id}.csv`);
     if (format === 'mztab') res.attachment(`${b.id}.mztab`);

@@ -287,6 +287,8 @@ const fmt = (n: number) => Math.round(n).toLocaleString('en-US');
 
 /** Reader problems listed on stderr before the summary (the rest are only counted). */
 const SHOWN_ISSUES = 5;
+/** Reader warnings listed on stderr (the spectrum was still scored; the summary counts them all). */
+const SHOWN_WARNINGS = 3;
 
 /**
  * `peel score FILE...`: scores every spectrum and writes the results (see {@link SCORE_USAGE}).
@@ -377,6 +379,7 @@ export const scoreCommand: Command = async (argv: string[], io: CliIo) => {
   });
   const progress = createProgress({ stream: io.stderr, tty: io.isTty });
   const issues: string[] = [];
+  const warningLines: string[] = [];
   let issueCount = 0;
   let summary: ScoreSummary | undefined;
   try {
@@ -398,9 +401,10 @@ export const scoreCommand: Command = async (argv: string[], io: CliIo) => {
       },
       onProgress: (counts, bytesRead) => progress.update(counts, bytesRead),
       onIssue: (issue, index) => {
-        if (issue.severity !== 'error') return;
-        issueCount++;
-        if (issues.length < SHOWN_ISSUES) issues.push(formatReadIssue(issue, index));
+        if (issue.severity === 'error') {
+          issueCount++;
+          if (issues.length < SHOWN_ISSUES) issues.push(formatReadIssue(issue, index));
+        } else if (warningLines.length < SHOWN_WARNINGS) warningLines.push(formatReadIssue(issue, index));
       },
     });
     await writer.end();
@@ -427,6 +431,7 @@ export const scoreCommand: Command = async (argv: string[], io: CliIo) => {
     return 1;
   }
   progress.clear();
+  for (const line of warningLines) println(io.stderr, line);
   for (const line of issues) println(io.stderr, line);
   if (issueCount > issues.length)
     println(io.stderr, `… and ${fmt(issueCount - issues.length)} more unreadable spectra`);

@@ -164,15 +164,27 @@ export function buildAnnotatedResult(
       confidenceLevel: level,
       ...(tied ? { tiedWithPrevious: true } : {}),
       source: user.userKeys.has(candidateKey(c)) ? 'user' : 'rules',
-      matchedPeaks: candidateMatches(c, compiled)
-        .map((m) => ({
+      matchedPeaks: [
+        // The precursor ion left in the MS2 spectrum counts as explained: list it too.
+        ...(clean.precursorIndex >= 0
+          ? [
+              {
+                mz: round(clean.mz[clean.precursorIndex]!, 5),
+                intensity: round(clean.intensity[clean.precursorIndex]!, 4),
+                label: 'precursor',
+                formula: countsString(c.hypothesis.counts, c.hypothesis.charge),
+                ppm: round(((clean.mz[clean.precursorIndex]! - c.hypothesis.mz) / c.hypothesis.mz) * 1e6, 2),
+              },
+            ]
+          : []),
+        ...candidateMatches(c, compiled).map((m) => ({
           mz: round(clean.mz[m.node.peak]!, 5),
           intensity: round(clean.intensity[m.node.peak]!, 4),
           label: m.label,
           formula: countsString(m.node.counts, m.node.charge),
           ppm: round(m.node.ppm, 2),
-        }))
-        .sort((a, b) => b.mz - a.mz),
+        })),
+      ].sort((a, b) => b.mz - a.mz),
       ...(notes.length ? { notes } : {}),
     });
   }

@@ -62,6 +62,17 @@ describe('peel score: inputs', () => {
     expect(doc.spectra.filter((s) => s.status === 'annotated').length).toBeGreaterThan(0);
   });
 
+  it('reads the HUPO-PSI mzML 1.1 example file (tiny.pwiz.1.1.mzML): its one MS2 spectrum, warnings listed', async () => {
+    // test/fixtures/mzml/tiny.pwiz.1.1.mzML: the example published with the HUPO-PSI mzML 1.1 specification.
+    const { code, out, err } = await score(['test/fixtures/mzml/tiny.pwiz.1.1.mzML']);
+    expect(code).toBe(0);
+    const doc = parseDoc(out);
+    expect(doc.spectra.map((s) => s.id)).toEqual(['scan=20']);
+    expect(doc.spectra[0]!.status).not.toBe('error');
+    expect(err).toMatch(/tiny\.pwiz\.1\.1\.mzML:\d+: warning profile-data \(result 1 spectrum scan=20\)/);
+    expect(err).toMatch(/1 spectrum from 1 file .* 2 reader warning\(s\)/);
+  });
+
   it('reads a JSON document and gzip-compressed MGF; index counts within each file, metadata.file names it', async () => {
     const gz = tmp.file('cy.mgf.gz', gzipSync(CYANIDIN_HEX_PEN));
     const { code, out, err } = await score([FIXTURE_JSON, gz]);
