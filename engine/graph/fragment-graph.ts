@@ -173,9 +173,7 @@ export function matchHypothesis(
     if (same) same.ions!.add(ion.name);
     else cores.push({ counts: c, charge: frag.charge, ions: new Set([ion.name]) });
   }
-  const combos = rules.lossCombos.filter((c) => (options.polarity === 'positive' ? c.positive : c.negative));
   const H_MASS = 1.00782503223;
-  const comboIndex = combos.map((c) => rules.lossCombos.indexOf(c));
 
   // Peaks as ion atom masses, ascending (the cleaned spectrum is sorted by m/z).
   const nPeaks = spectrum.mz.length;
@@ -239,6 +237,11 @@ export function matchHypothesis(
   const tmp = new Int32Array(NE);
   const lost = new Int32Array(NE);
   const peakMz = spectrum.mz;
+  // Multi-loss combinations on ladder ends only; cross-ring ones when a residue may be C-linked.
+  const groups = rules.comboGroups[options.polarity];
+  const comboEnds = [...groups.plain, ...groups.multi];
+  const comboCross = [...groups.plain, ...groups.cross];
+  const comboAll = [...comboEnds, ...groups.cross];
   comps.forEach((compUnits, ci) => {
     const hasC = compUnits.some((n, u) => n > 0 && units[u]!.linkages.includes('C'));
     const total = sum(compUnits);
@@ -256,23 +259,23 @@ export function matchHypothesis(
         const core = cores[coreIdx]!;
         const z = core.charge;
         const coreMass = countsMass(core.counts);
-        for (let k = 0; k < combos.length; k++) {
-          const combo = combos[k]!;
+        const list = ladderEnd ? (hasC ? comboAll : comboEnds) : hasC ? comboCross : groups.plain;
+        for (const k of list) {
+          const combo = rules.lossCombos[k]!;
           if (combo.crossRing >= 0) {
             // Cross-ring cleavage needs its C-linkable residue(s) still in the fragment.
-            if (!hasC) continue;
             const r1 = rules.crossRingResidue[combo.crossRing]!;
             const r2 = combo.crossRing2 >= 0 ? rules.crossRingResidue[combo.crossRing2]! : -1;
             const need1 = 1 + (r2 === r1 ? 1 : 0);
             if (compUnits[r1]! - removed[r1]! < need1) continue;
             if (r2 >= 0 && r2 !== r1 && compUnits[r2]! - removed[r2]! < 1) continue;
-          } else if (combo.size > 1 && !ladderEnd) continue;
+          }
           const maxRadical =
             options.polarity === 'negative' && !combo.radical && removedCount === total && combo.size <= 1
               ? 1
               : 0;
           for (let radical = 0; radical <= maxRadical; radical++) {
-            if (coreIdx === 0 && removedCount === 0 && k === 0 && !radical) continue; // the precursor itself
+            if (coreIdx === 0 && removedCount === 0 && combo.size === 0 && !radical) continue; // the precursor itself
             const atoms = coreMass - lostMass - combo.mass - radical * H_MASS;
             const mz = (atoms - z * ELECTRON_MASS) / Math.abs(z);
             const tol = tolDa(mz, options.fragmentPpm, options.floorDa);
@@ -294,7 +297,7 @@ export function matchHypothesis(
               nodeFor(p, tmp, z).derivs.push({
                 comp: ci,
                 removed,
-                combo: comboIndex[k]!,
+                combo: k,
                 radical: radical as 0 | 1,
                 core: coreIdx,
               });

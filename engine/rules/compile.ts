@@ -89,6 +89,8 @@ export interface CompiledRuleSet {
   readonly diagnosticCrossRing: ReadonlyMap<number, readonly number[]>;
   /** Loss combinations, the empty one first. */
   readonly lossCombos: readonly LossCombo[];
+  /** Loss-combination indices per polarity: plain (≤ 1 loss), multi (≥ 2 small losses), cross-ring. */
+  readonly comboGroups: Readonly<Record<'positive' | 'negative', { plain: number[]; multi: number[]; cross: number[] }>>;
   /** `comboNested[a * n + b]`: combination a is contained in combination b. */
   readonly comboNested: Uint8Array;
   /** Neutral that each adduct ion type loses first (HCOOH from [M+HCOO]−), by ion type name. */
@@ -258,12 +260,27 @@ export function compileRuleSet(rules: RuleSet): CompiledRuleSet {
       countsMass(formulaCounts(x.formula, `crossRing[${i}]`).counts),
     ),
     lossCombos,
+    comboGroups: {
+      positive: groupCombos(lossCombos, (c) => c.positive),
+      negative: groupCombos(lossCombos, (c) => c.negative),
+    },
     comboNested,
     adductLosses,
     aglyconeDecomposer: createDecomposer({ ranges: aglyconeRanges }),
     precursorDecomposer: createDecomposer({ ranges: ranges(rules.elements.precursor) }),
     aglyconeRanges,
   };
+}
+
+function groupCombos(combos: readonly LossCombo[], keep: (c: LossCombo) => boolean) {
+  const out = { plain: [] as number[], multi: [] as number[], cross: [] as number[] };
+  combos.forEach((c, i) => {
+    if (!keep(c)) return;
+    if (c.crossRing >= 0) out.cross.push(i);
+    else if (c.size > 1) out.multi.push(i);
+    else out.plain.push(i);
+  });
+  return out;
 }
 
 function diagnosticMap(rules: RuleSet, residueOf: readonly number[]): Map<number, number[]> {
