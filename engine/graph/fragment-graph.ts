@@ -76,6 +76,18 @@ export interface GraphOptions {
   genericPerPeak: number;
 }
 
+/** Whether every unit a fragment keeps (composition − removed) is a residue that may be C-linked. */
+function keepsOnlyCLinkable(comp: Uint8Array, removed: Uint8Array, units: CompiledRuleSet['units']): boolean {
+  let kept = 0;
+  for (let u = 0; u < comp.length; u++) {
+    const n = comp[u]! - removed[u]!;
+    if (n === 0) continue;
+    if (units[u]!.kind !== 'residue' || !units[u]!.linkages.includes('C')) return false;
+    kept += n;
+  }
+  return kept > 0;
+}
+
 const subCache = new Map<string, Uint8Array[]>();
 
 /** {@link subMultisets}, memoised by the vector (compositions repeat across spectra). */
@@ -259,7 +271,10 @@ export function matchHypothesis(
         const core = cores[coreIdx]!;
         const z = core.charge;
         const coreMass = countsMass(core.counts);
-        const list = ladderEnd ? (hasC ? comboAll : comboEnds) : hasC ? comboCross : groups.plain;
+        // Cross-ring ions come from the precursor or from fragments that keep only C-linkable residues
+        // (the C-glycosidic core after its O-linked units are gone).
+        const crossHere = hasC && (removedCount === 0 || keepsOnlyCLinkable(compUnits, removed, units));
+        const list = ladderEnd ? (crossHere ? comboAll : comboEnds) : crossHere ? comboCross : groups.plain;
         for (const k of list) {
           const combo = rules.lossCombos[k]!;
           if (combo.crossRing >= 0) {
