@@ -65,7 +65,7 @@ export interface IndexedResult {
   result: SpectrumResult;
 }
 
-/** What recording results did. */
+/** What storing the results did. */
 export interface MarkOutcome {
   /** Indexes newly recorded (the others already had a result: a retried or duplicate job). */
   added: number;
