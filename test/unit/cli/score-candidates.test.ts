@@ -1,5 +1,5 @@
 import { readFileSync } from 'node:fs';
-import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
+import { beforeAll, describe, expect, it, vi } from 'vitest';
 import {
   CandidatesLookup,
   checkStructure,
@@ -11,7 +11,7 @@ import { ResultsDocumentSchema } from '../../../engine/report/result.js';
 import type { RuleSet } from '../../../engine/rules/schema.js';
 import * as engine from '../../../engine/score/score-spectrum.js';
 import { loadDefaultRuleSet } from '../../../formats/ruleset-file.js';
-import { CYANIDIN_HEX_PEN, mgfBlock, score, tempDir } from './score-helpers.js';
+import { CYANIDIN_HEX_PEN, mgfBlock, score, useTempDir } from './score-helpers.js';
 
 // Spy on the engine (calling through) to see which candidates each spectrum was scored with.
 vi.mock('../../../engine/score/score-spectrum.js', async (importOriginal) => {
@@ -227,7 +227,7 @@ describe('candidates lookup', () => {
 });
 
 describe('peel score --candidates', () => {
-  const tmp = tempDir();
+  const tmp = useTempDir();
   let input: string;
   beforeAll(() => {
     input = tmp.file(
@@ -239,7 +239,6 @@ describe('peel score --candidates', () => {
         ]),
     );
   });
-  afterAll(() => tmp.done());
 
   it('passes each spectrum its candidates (batch-wide and its own) and warns about ids that matched nothing', async () => {
     const file = tmp.file(

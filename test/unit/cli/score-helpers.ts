@@ -3,6 +3,7 @@ import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { Readable, Writable } from 'node:stream';
+import { afterAll, beforeAll } from 'vitest';
 import type { CliIo } from '../../../cli/io.js';
 import { main } from '../../../cli/main.js';
 
@@ -37,6 +38,27 @@ export async function score(argv: string[], options: Parameters<typeof capture>[
   const c = capture(options);
   const code = await main(['score', ...argv], c.io);
   return { code, out: c.out(), err: c.err() };
+}
+
+/**
+ * A temporary directory for the enclosing describe block, made in its beforeAll and removed in its afterAll
+ * (so nothing is made for a block whose tests are all filtered out).
+ */
+export function useTempDir(): {
+  readonly dir: string;
+  file: (name: string, content: string | Buffer) => string;
+} {
+  let t: ReturnType<typeof tempDir> | undefined;
+  beforeAll(() => {
+    t = tempDir();
+  });
+  afterAll(() => t?.done());
+  return {
+    get dir() {
+      return t!.dir;
+    },
+    file: (name, content) => t!.file(name, content),
+  };
 }
 
 /** A temporary directory, removed by the returned function. */

@@ -1,6 +1,6 @@
 import { readFileSync } from 'node:fs';
 import { gzipSync } from 'node:zlib';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import { generateSet } from '../../../bench/sim/generate.js';
 import {
   ResultsDocumentSchema,
@@ -9,7 +9,7 @@ import {
 } from '../../../engine/report/result.js';
 import { CSV_COLUMNS } from '../../../formats/write-csv.js';
 import { writeMzml } from '../../helpers/write-mzml.js';
-import { CYANIDIN_HEX_PEN, mgfBlock, score, tempDir } from './score-helpers.js';
+import { CYANIDIN_HEX_PEN, mgfBlock, score, useTempDir } from './score-helpers.js';
 
 const DEMO_POS = 'demo/data/berry-pigments-pos.mgf';
 const FIXTURE_JSON = 'test/fixtures/json/simulated-spectra.json';
@@ -19,8 +19,7 @@ function parseDoc(text: string) {
 }
 
 describe('peel score: inputs', () => {
-  const tmp = tempDir();
-  afterAll(() => tmp.done());
+  const tmp = useTempDir();
 
   it('scores the simulated demo MGF into the DESIGN.md results document, one result per spectrum in order', async () => {
     const { code, out, err } = await score([DEMO_POS]);
@@ -154,7 +153,7 @@ describe('peel score: inputs', () => {
 });
 
 describe('peel score: output formats', () => {
-  const tmp = tempDir();
+  const tmp = useTempDir();
   let input: string;
   beforeAll(() => {
     input = tmp.file(
@@ -166,7 +165,6 @@ describe('peel score: output formats', () => {
         ]),
     );
   });
-  afterAll(() => tmp.done());
 
   it('json to --out: the same document as on stdout, nothing on stdout', async () => {
     const out = `${tmp.dir}/r.json`;
@@ -235,8 +233,7 @@ describe('peel score: output formats', () => {
 });
 
 describe('peel score: options', () => {
-  const tmp = tempDir();
-  afterAll(() => tmp.done());
+  const tmp = useTempDir();
 
   it.each([
     [['x.mgf', '--format', 'xml'], /--format must be one of json, ndjson, csv, mztab/],
@@ -346,8 +343,7 @@ describe('peel score: options', () => {
 });
 
 describe('peel score: chemistry through the command line', () => {
-  const tmp = tempDir();
-  afterAll(() => tmp.done());
+  const tmp = useTempDir();
 
   it('ranks cyanidin + Hex + Pen first for 581.15009 → 449.10784 → 287.05501 (REFERENCE.md §4, common practice)', async () => {
     const input = tmp.file('cy.mgf', CYANIDIN_HEX_PEN);
