@@ -105,7 +105,7 @@ export async function ingestBatch(
         });
         for (const w of item.warnings) issues.push(issueRecord(w, index));
       } else {
-        const id = item.id ?? item.issue.position.id ?? `#${index}`;
+        const id = item.id ?? item.issue.position.id ?? `index-${index}`;
         entries.push({ index, error: { ...errorResult(id, item.issue.code, item.issue.message), index } });
         const rec = issueRecord(item.issue, index);
         issues.push(rec);

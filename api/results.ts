@@ -204,7 +204,7 @@ export function resultRoutes(ctx: AppContext): Router {
         if (a.status !== o.status || a.best !== o.best || a.confidenceLevel !== o.confidenceLevel) {
           changes.push({
             index: start + k,
-            id: a.id ?? o.id ?? `#${start + k}`,
+            id: a.id ?? o.id ?? `index-${start + k}`,
             before: o.view,
             after: a.view,
           });

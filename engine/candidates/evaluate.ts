@@ -138,7 +138,8 @@ function topologiesFor(
   let list = cache.get(key);
   if (!list) {
     list = enumerateTopologies(units, rules.units, { maxCLinked, limit });
-    if (cache.size > 20_000) cache.clear();
+    // Bounded: each entry holds up to `limit` topologies (a few KB each).
+    if (cache.size > 200) cache.clear();
     cache.set(key, list);
   }
   return list;

@@ -62,8 +62,8 @@ export function buildAnnotatedResult(
   clean: CleanSpectrum,
   solved: SolvedHypothesis[],
   compiled: CompiledRuleSet,
-  user: { userKeys: ReadonlySet<string>; userNotes: readonly string[] } = {
-    userKeys: new Set(),
+  user: { userKeys: ReadonlyMap<string, string>; userNotes: readonly string[] } = {
+    userKeys: new Map(),
     userNotes: [],
   },
 ): SpectrumResult {
@@ -133,6 +133,8 @@ export function buildAnnotatedResult(
     const aglClass = agl.kind === 'library' ? r.classes[r.names.indexOf(primary)] : undefined;
     const tied = i > 0 && Math.abs(ranked[i - 1]!.c.evidence - c.evidence) < w.tieMargin;
     const notes: string[] = [];
+    const userLabel = user.userKeys.get(candidateKey(c));
+    if (userLabel !== undefined) notes.push(`User-supplied candidate: ${userLabel}.`);
     if (alternatives.length > 0) {
       notes.push(`Same ion formula as ${alternatives.join(', ')}: MS/MS cannot tell these aglycones apart.`);
     }

@@ -90,7 +90,9 @@ export interface CompiledRuleSet {
   /** Loss combinations, the empty one first. */
   readonly lossCombos: readonly LossCombo[];
   /** Loss-combination indices per polarity: plain (≤ 1 loss), multi (≥ 2 small losses), cross-ring. */
-  readonly comboGroups: Readonly<Record<'positive' | 'negative', { plain: number[]; multi: number[]; cross: number[] }>>;
+  readonly comboGroups: Readonly<
+    Record<'positive' | 'negative', { plain: number[]; multi: number[]; cross: number[] }>
+  >;
   /** `comboNested[a * n + b]`: combination a is contained in combination b. */
   readonly comboNested: Uint8Array;
   /** Neutral that each adduct ion type loses first (HCOOH from [M+HCOO]−), by ion type name. */

@@ -166,13 +166,13 @@ function scoreUnchecked(
     evaluated++;
   }
   const userNotes: string[] = [];
-  const userKeys = new Set<string>();
+  const userKeys = new Map<string, string>();
   for (const u of options.candidates ?? []) {
     const scored = scoreUserCandidate(u, spectrum, clean, compiled, polarity, graphOptions, evaluateOptions);
     if (typeof scored === 'string') userNotes.push(scored);
     else {
       solved.push(scored.solved);
-      for (const c of scored.solved.candidates) userKeys.add(candidateKey(c));
+      for (const c of scored.solved.candidates) userKeys.set(candidateKey(c), u.name ?? u.structure);
     }
   }
   return buildAnnotatedResult(spectrum, polarity, clean, solved, compiled, { userKeys, userNotes });
