@@ -221,7 +221,7 @@ export function canonical(
 export interface SearchOptions {
   /** Residues on the aglycone that may be C-linked. @defaultValue 0 */
   maxCLinked?: number;
-  /** Improvement rounds per start. @defaultValue 8 */
+  /** Improvement rounds per start. @defaultValue 5 */
   maxRounds?: number;
   /** Topologies already built, by composition and notation (shared across calls). */
   cache?: Map<string, Topology>;
@@ -280,11 +280,11 @@ export function searchTopologies(
   }
   const baseLink = unit.map((_, i) => (i < nRes ? 'O' : 'ester') as 'O' | 'C' | 'ester');
   // Two starts for mid-sized compositions; the chain alone (the commonest shape) beyond six units.
-  for (const start of n > 6 ? [chain] : [chain, star]) {
+  for (const start of n > 5 ? [chain] : [chain, star]) {
     let parent = start.slice();
     let linkage = baseLink.slice();
     let current = evaluate(parent, linkage);
-    for (let round = 0; round < (options.maxRounds ?? 8); round++) {
+    for (let round = 0; round < (options.maxRounds ?? 5); round++) {
       let bestScore = current;
       let bestParent: number[] | undefined;
       let bestLink: ('O' | 'C' | 'ester')[] | undefined;
