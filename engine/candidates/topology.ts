@@ -335,44 +335,45 @@ export function makeTopology(
   const n = unit.length;
   const yLosses = new Set<number>();
   const bUnits = new Set<number>();
+  // A Y-loss key is Σ 8^unit over the lost instances (removedKey of their counts): sum weights directly.
+  const weight = unit.map((u) => 8 ** u);
+  const total = weight.reduce((a, b) => a + b, 0);
   // Retained sets: closed towards the aglycone, holding every C-linked residue.
-  const fixed = linkage.map((l, i) => l === 'C' && parent[i] === -1);
-  const counts = new Uint8Array(nUnits);
-  for (let mask = 0; mask < 1 << n; mask++) {
-    let ok = true;
-    for (let i = 0; i < n && ok; i++) {
-      const kept = (mask >> i) & 1;
-      if (!kept && fixed[i]) ok = false;
-      if (kept && parent[i]! >= 0 && !((mask >> parent[i]!) & 1)) ok = false;
+  let fixedMask = 0;
+  const cCounts = new Uint8Array(nUnits);
+  for (let i = 0; i < n; i++) {
+    if (linkage[i] === 'C' && parent[i] === -1) {
+      fixedMask |= 1 << i;
+      cCounts[unit[i]!]!++;
     }
-    if (!ok) continue;
-    counts.fill(0);
-    for (let i = 0; i < n; i++) if (!((mask >> i) & 1)) counts[unit[i]!]!++;
-    yLosses.add(removedKey(counts));
+  }
+  for (let mask = 0; mask < 1 << n; mask++) {
+    if ((mask & fixedMask) !== fixedMask) continue;
+    let ok = true;
+    let kept = 0;
+    for (let i = 0; i < n; i++) {
+      if (!((mask >> i) & 1)) continue;
+      const p = parent[i]!;
+      if (p >= 0 && !((mask >> p) & 1)) {
+        ok = false;
+        break;
+      }
+      kept += weight[i]!;
+    }
+    if (ok) yLosses.add(total - kept);
   }
   // Terminal subtrees (a unit with all its descendants) leave as B / acylium ions.
-  for (let i = 0; i < n; i++) {
-    if (fixed[i]) continue;
-    counts.fill(0);
-    const stack = [i];
-    while (stack.length) {
-      const j = stack.pop()!;
-      counts[unit[j]!]!++;
-      for (let k = 0; k < n; k++) if (parent[k] === j) stack.push(k);
-    }
-    bUnits.add(removedKey(counts));
-  }
-  counts.fill(0);
-  for (let i = 0; i < n; i++) if (!fixed[i]) counts[unit[i]!]!++;
-  return {
-    unit,
-    parent,
-    linkage,
-    notation,
-    yLosses,
-    bUnits,
-    y0Loss: removedKey(counts),
-    cLinked: fixed.some(Boolean),
-    cCounts: Uint8Array.from({ length: nUnits }, (_, u) => unit.filter((x, i) => x === u && fixed[i]).length),
+  // Each instance's weight is added to itself and every ancestor: subtree[i] is its subtree's key.
+  const subtree = new Float64Array(n);
+  const add = (i: number, w: number) => {
+    for (let j = i; j >= 0; j = parent[j]!) subtree[j]! += w;
   };
+  for (let i = 0; i < n; i++) add(i, weight[i]!);
+  let y0Loss = 0;
+  for (let i = 0; i < n; i++) {
+    if ((fixedMask >> i) & 1) continue;
+    bUnits.add(subtree[i]!);
+    y0Loss += weight[i]!;
+  }
+  return { unit, parent, linkage, notation, yLosses, bUnits, y0Loss, cLinked: fixedMask !== 0, cCounts };
 }

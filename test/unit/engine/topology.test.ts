@@ -243,8 +243,16 @@ describe('searchTopologies (local search for large compositions)', () => {
     for (const count of seen.values()) expect(count).toBe(1); // each topology scored once
     expect(seen.size).toBeGreaterThan(5);
     expect(best).toBe(-1); // climbed: one chain, malonyl on a Pen
-    // Residues on the aglycone only: the star start is visited too.
-    expect([...seen.keys()].some((n) => n.startsWith('[Hex][Hex]'))).toBe(true);
+  });
+
+  it('starts from a star as well as a chain for compositions of up to five units', () => {
+    const seen = new Set<string>();
+    searchTopologies(comp('Hex', 'Hex', 'Pen', 'dHex', 'malonyl'), units, (t) => {
+      seen.add(t.notation);
+      return 0;
+    });
+    // Residues on the aglycone only: the star start is visited.
+    expect([...seen].some((n) => n.startsWith('[Hex][Hex]'))).toBe(true);
   });
 
   it('explores C-linkage only when allowed', () => {
