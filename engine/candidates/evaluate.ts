@@ -389,9 +389,12 @@ export function evaluateTopologies(
       if (topo.linkage[i] === 'ester' && topo.parent[i] === -1) topoPrior -= w.acylOnAglycone;
     }
     const score = 10 * weighted - penalty + fixed + topoPrior;
-    if (score >= options.best.score - window) {
+    // Only the best KEEP topologies are kept (allocated); most visited ones never are.
+    const full = perComposition.length >= KEEP;
+    if (score >= options.best.score - window && (!full || score > perComposition[KEEP - 1]!.score)) {
       if (score > options.best.score) options.best.score = score;
-      perComposition.push({
+      if (full) perComposition.pop();
+      insertSorted(perComposition, {
         hypothesis: h,
         interpretation: interp,
         topology: topo,
@@ -440,13 +443,23 @@ const topologyRuns = new WeakMap<
   { comp: number; fixed: number; prior: number; candidates: EvaluatedCandidate[] }
 >();
 
+/** Topologies kept per interpretation. */
+const KEEP = 12;
+
+/** Inserts a candidate into a list kept sorted by descending score. */
+function insertSorted(list: EvaluatedCandidate[], c: EvaluatedCandidate): void {
+  let i = list.length;
+  while (i > 0 && list[i - 1]!.score < c.score) i--;
+  list.splice(i, 0, c);
+}
+
 /** The best few distinct stackings at or above a score. */
 function keepBest(list: EvaluatedCandidate[], floor: number): EvaluatedCandidate[] {
   const sorted = [...list].sort((a, b) => b.score - a.score);
   const out: EvaluatedCandidate[] = [];
   const seen = new Set<string>();
   for (const c of sorted) {
-    if (out.length >= 12 || c.score < floor) break;
+    if (out.length >= KEEP || c.score < floor) break;
     if (seen.has(c.topology.notation)) continue;
     seen.add(c.topology.notation);
     out.push(c);
