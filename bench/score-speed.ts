@@ -4,7 +4,7 @@
 import { cpus, loadavg } from 'node:os';
 import { performance } from 'node:perf_hooks';
 import type { SpectrumResult } from '../engine/report/result.js';
-import { compileRuleSet, scoreSpectrum } from '../engine/score/score-spectrum.js';
+import { compileRuleSet, scoreSpectrum } from '../engine/index.js';
 import type { Spectrum } from '../engine/spectrum/spectrum.js';
 import { defaultRuleSetPath, loadRuleSetFile } from '../formats/ruleset-file.js';
 import { machineLine, writeSection } from './report.js';

@@ -8,7 +8,7 @@ import {
   type SpectrumResult,
 } from '../engine/report/result.js';
 import type { RuleSet } from '../engine/rules/schema.js';
-import { compileRuleSet, scoreSpectrum } from '../engine/score/score-spectrum.js';
+import { compileRuleSet, scoreSpectrum } from '../engine/index.js';
 import { createResultsWriter, type ResultsWriter, readSpectraFile } from '../formats/index.js';
 import { peelVersion } from '../formats/package-root.js';
 import type { DemoProgress } from './progress.js';

@@ -1,6 +1,6 @@
 import type { SpectrumResult } from '../engine/report/result.js';
 import type { RuleSet } from '../engine/rules/schema.js';
-import type { CompiledRuleSet, ScoreOptions } from '../engine/score/score-spectrum.js';
+import type { CompiledRuleSet, ScoreOptions } from '../engine/index.js';
 import type { Spectrum } from '../engine/spectrum/spectrum.js';
 import { scoringKey } from '../store/hash.js';
 import { isTerminal, type IndexedResult, type Store } from '../store/store.js';

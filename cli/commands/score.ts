@@ -6,12 +6,8 @@ import { pathToFileURL } from 'node:url';
 import type { RuleSetRef, SpectrumResult } from '../../engine/report/result.js';
 import { formatRuleIssue } from '../../engine/rules/index.js';
 import type { RuleSet } from '../../engine/rules/schema.js';
-import {
-  type CompiledRuleSet,
-  compileRuleSet,
-  type ScoreOptions,
-  scoreSpectrum,
-} from '../../engine/score/score-spectrum.js';
+import { type CompiledRuleSet, compileRuleSet } from '../../engine/index.js';
+import { type ScoreOptions, scoreSpectrum } from '../../engine/score/score-spectrum.js';
 import { formatFromName, readSpectra } from '../../formats/detect.js';
 import { peelVersion } from '../../formats/package-root.js';
 import type { ReadIssue, ReadItem } from '../../formats/read-types.js';

@@ -178,9 +178,6 @@ function scoreUnchecked(
   return buildAnnotatedResult(spectrum, polarity, clean, solved, compiled, { userKeys, userNotes });
 }
 
-export type { CompiledRuleSet } from '../rules/compile.js';
-export { compileRuleSet } from '../rules/compile.js';
-
 /**
  * Scores one user-supplied candidate: reads its stacking string, finds the ion type under which it fits the
  * precursor, builds that hypothesis' tree and scores exactly the stacking given. Returns a caution instead

@@ -5,7 +5,7 @@ import { describe, expect, it } from 'vitest';
 import { STANDARD_CAUTIONS } from '../../../engine/report/build-result.js';
 import { SpectrumResultSchema } from '../../../engine/report/result.js';
 import type { RuleSet } from '../../../engine/rules/schema.js';
-import { compileRuleSet, scoreSpectrum } from '../../../engine/score/score-spectrum.js';
+import { compileRuleSet, scoreSpectrum } from '../../../engine/index.js';
 import type { Spectrum } from '../../../engine/spectrum/spectrum.js';
 import { loadDefaultRuleSet } from '../../../formats/ruleset-file.js';
 import {

@@ -9,7 +9,7 @@ import { formulaEquals, formulaMz, parseFormula, subtractFormula } from '../../.
 import { STANDARD_CAUTIONS } from '../../../engine/report/build-result.js';
 import { type SpectrumResult, SpectrumResultSchema } from '../../../engine/report/result.js';
 import type { RuleSet } from '../../../engine/rules/schema.js';
-import { compileRuleSet, scoreSpectrum } from '../../../engine/score/score-spectrum.js';
+import { compileRuleSet, scoreSpectrum } from '../../../engine/index.js';
 import { loadDefaultRuleSet } from '../../../formats/ruleset-file.js';
 import {
   caseSpectrum,
