@@ -139,7 +139,7 @@ function topologiesFor(
   if (!list) {
     list = enumerateTopologies(units, rules.units, { maxCLinked, limit });
     // Bounded: each entry holds up to `limit` topologies (a few KB each).
-    if (cache.size > 200) cache.clear();
+    if (cache.size > 50) cache.clear();
     cache.set(key, list);
   }
   return list;

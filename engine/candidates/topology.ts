@@ -260,7 +260,7 @@ export function searchTopologies(
     if (!topo) {
       topo = makeTopology(unit.slice(), parent.slice(), linkage.slice(), notation, composition.length);
       if (options.cache) {
-        if (options.cache.size > 10_000) options.cache.clear(); // a few KB per topology: bounded memory
+        if (options.cache.size > 2_000) options.cache.clear(); // a few KB per topology: bounded memory
         options.cache.set(cacheKey, topo);
       }
     }

@@ -96,7 +96,7 @@ function subMultisetsCached(units: Uint8Array): Uint8Array[] {
   let list = subCache.get(key);
   if (!list) {
     list = subMultisets(units);
-    if (subCache.size > 5_000) subCache.clear();
+    if (subCache.size > 2_000) subCache.clear();
     subCache.set(key, list);
   }
   return list;
