@@ -1,6 +1,5 @@
 // Benchmark: stream a large simulated mzML file through the reader; measure spectra/s and peak memory (RSS).
 // `npm run bench -- mzml-memory [--spectra N] [--keep]`
-import { spawn } from 'node:child_process';
 import { mkdtempSync, rmSync, statSync } from 'node:fs';
 import { cpus, loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -8,7 +7,7 @@ import { fileURLToPath } from 'node:url';
 import { readSpectraFile } from '../formats/detect.js';
 import { createMzmlStats } from '../formats/mzml.js';
 import { generateMzml } from './gen/mzml.js';
-import { machineLine, writeSection } from './report.js';
+import { machineLine, writeSection, runJsonChild } from './report.js';
 
 /** Peak RSS the issue allows while 100,000 spectra stream through. */
 const TARGET_RSS_MB = 300;
@@ -73,20 +72,7 @@ async function child(path: string): Promise<void> {
 }
 
 function runChild(path: string, expected: number): Promise<ChildResult> {
-  return new Promise((resolve, reject) => {
-    const p = spawn(process.execPath, [fileURLToPath(import.meta.url), '--child', path, String(expected)], {
-      stdio: ['ignore', 'pipe', 'inherit'],
-    });
-    let out = '';
-    p.stdout.on('data', (d) => {
-      out += d;
-    });
-    p.on('error', reject);
-    p.on('close', (code) => {
-      if (code !== 0) reject(new Error(`reader child exited with ${code}`));
-      else resolve(JSON.parse(out.trim().split('\n').at(-1)!) as ChildResult);
-    });
-  });
+  return runJsonChild<ChildResult>(import.meta.url, [path, String(expected)], 'reader');
 }
 
 /** Generates the file, streams it through the reader in a fresh process, and writes the section. */

@@ -33,3 +33,26 @@ export async function machineLine(): Promise<string> {
   const cpu = os.cpus()[0]?.model ?? 'unknown CPU';
   return `${os.cpus().length} × ${cpu}, ${(os.totalmem() / 2 ** 30).toFixed(0)} GiB, Node ${process.version}, ${new Date().toISOString().slice(0, 10)}`;
 }
+
+/**
+ * Runs this benchmark's own script again in a fresh Node process (`--child ...args`) and returns the JSON
+ * object it prints on its last line of stdout (a fresh process measures RSS from a clean start).
+ */
+export async function runJsonChild<T>(scriptUrl: string, args: string[], what: string): Promise<T> {
+  const { spawn } = await import('node:child_process');
+  const { fileURLToPath } = await import('node:url');
+  return new Promise((resolve, reject) => {
+    const p = spawn(process.execPath, [fileURLToPath(scriptUrl), '--child', ...args], {
+      stdio: ['ignore', 'pipe', 'inherit'],
+    });
+    let out = '';
+    p.stdout.on('data', (d) => {
+      out += d;
+    });
+    p.on('error', reject);
+    p.on('close', (code) => {
+      if (code !== 0) reject(new Error(`${what} child exited with ${code}`));
+      else resolve(JSON.parse(out.trim().split('\n').at(-1)!) as T);
+    });
+  });
+}

@@ -2,7 +2,6 @@
 // command's own code path: main → scoreCommand → scoreFiles, NDJSON to /dev/null) in a fresh Node process;
 // measures peak RSS (target < 300 MB) and throughput.
 // `npm run bench -- score-memory [--spectra N] [--seed S] [--keep]`
-import { spawn } from 'node:child_process';
 import { once } from 'node:events';
 import { createWriteStream, mkdtempSync, rmSync, statSync } from 'node:fs';
 import { cpus, loadavg, tmpdir } from 'node:os';
@@ -11,7 +10,7 @@ import { Writable } from 'node:stream';
 import { fileURLToPath } from 'node:url';
 import type { Spectrum } from '../engine/spectrum/spectrum.js';
 import { encodeBinaryArray } from '../formats/mzml-binary.js';
-import { machineLine, writeSection } from './report.js';
+import { machineLine, writeSection, runJsonChild } from './report.js';
 import { GENERATOR, iterateSet, SIMULATED_NOTE } from './sim/generate.js';
 
 /** Peak RSS the issue allows while 100,000 spectra stream through. */
@@ -167,20 +166,7 @@ async function child(path: string): Promise<void> {
 }
 
 function runChild(path: string): Promise<ChildResult> {
-  return new Promise((resolve, reject) => {
-    const p = spawn(process.execPath, [fileURLToPath(import.meta.url), '--child', path], {
-      stdio: ['ignore', 'pipe', 'inherit'],
-    });
-    let out = '';
-    p.stdout.on('data', (d) => {
-      out += d;
-    });
-    p.on('error', reject);
-    p.on('close', (code) => {
-      if (code !== 0) reject(new Error(`scoring child exited with ${code}`));
-      else resolve(JSON.parse(out.trim().split('\n').at(-1)!) as ChildResult);
-    });
-  });
+  return runJsonChild<ChildResult>(import.meta.url, [path], 'scoring');
 }
 
 /** Generates the mzML file, scores it with `peel score` in a fresh process, and writes the section. */

@@ -1,31 +1,6 @@
-import { Writable } from 'node:stream';
 import { describe, expect, it } from 'vitest';
-import type { CliIo } from '../../../cli/io.js';
 import { main } from '../../../cli/main.js';
-
-function capture(): { io: CliIo; out: () => string; err: () => string } {
-  let out = '';
-  let err = '';
-  const sink = (append: (s: string) => void) =>
-    new Writable({
-      write(chunk, _enc, done) {
-        append(String(chunk));
-        done();
-      },
-    });
-  const io: CliIo = {
-    stdout: sink((s) => {
-      out += s;
-    }),
-    stderr: sink((s) => {
-      err += s;
-    }),
-    isTty: false,
-    cwd: process.cwd(),
-    env: {},
-  };
-  return { io, out: () => out, err: () => err };
-}
+import { capture } from './cli-helpers.js';
 
 async function run(...argv: string[]) {
   const c = capture();

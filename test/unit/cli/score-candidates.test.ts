@@ -11,7 +11,7 @@ import { ResultsDocumentSchema } from '../../../engine/report/result.js';
 import type { RuleSet } from '../../../engine/rules/schema.js';
 import * as engine from '../../../engine/score/score-spectrum.js';
 import { loadDefaultRuleSet } from '../../../formats/ruleset-file.js';
-import { CYANIDIN_HEX_PEN, mgfBlock, score, useTempDir } from './score-helpers.js';
+import { CYANIDIN_HEX_PEN, mgfBlock, score, useTempDir } from './cli-helpers.js';
 
 // Spy on the engine (calling through) to see which candidates each spectrum was scored with.
 vi.mock('../../../engine/score/score-spectrum.js', async (importOriginal) => {

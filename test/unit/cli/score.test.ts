@@ -9,7 +9,7 @@ import {
 } from '../../../engine/report/result.js';
 import { CSV_COLUMNS } from '../../../formats/write-csv.js';
 import { writeMzml } from '../../helpers/write-mzml.js';
-import { CYANIDIN_HEX_PEN, mgfBlock, score, useTempDir } from './score-helpers.js';
+import { CYANIDIN_HEX_PEN, mgfBlock, score, useTempDir } from './cli-helpers.js';
 
 const DEMO_POS = 'demo/data/berry-pigments-pos.mgf';
 const FIXTURE_JSON = 'test/fixtures/json/simulated-spectra.json';

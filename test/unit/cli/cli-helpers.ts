@@ -1,4 +1,4 @@
-// Shared helpers of the `peel score` tests: captured streams, temporary files, small MGF texts.
+// Shared helpers of the command-line tests: captured streams, temporary files, small MGF texts.
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
