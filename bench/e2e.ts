@@ -7,6 +7,7 @@ import { createServer } from 'node:net';
 import { fileURLToPath } from 'node:url';
 import { Queue, Worker } from 'bullmq';
 import { Redis } from 'ioredis';
+import { deletePrefix } from '../store/redis.js';
 import { machineLine, writeSection } from './report.js';
 
 interface Opts {
@@ -78,16 +79,6 @@ function freePort(): Promise<number> {
       s.close(() => resolve(port));
     });
   });
-}
-
-async function deleteKeys(redis: Redis, prefix: string): Promise<void> {
-  let cursor = '0';
-  const pattern = `${prefix.replace(/([{}[\]*?\\])/g, '\\$1')}*`;
-  do {
-    const [next, keys] = await redis.scan(cursor, 'MATCH', pattern, 'COUNT', 1000);
-    cursor = next;
-    if (keys.length > 0) await redis.unlink(...keys);
-  } while (cursor !== '0');
 }
 
 /** Starts API + workers in a child process; resolves with its port. */
@@ -290,7 +281,7 @@ export async function run(args: string[]): Promise<void> {
     writeSection('e2e', md);
     log(md);
   } finally {
-    await deleteKeys(redis, prefix);
+    await deletePrefix(redis, prefix);
     redis.disconnect();
   }
 }

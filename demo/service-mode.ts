@@ -7,7 +7,7 @@ import { hashApiKey, newApiKey } from '../api/auth.js';
 import { parseConfig } from '../api/config.js';
 import { startService } from '../api/service.js';
 import type { ResultsDocument } from '../engine/report/result.js';
-import { connectRedis, createRedis } from '../store/redis.js';
+import { connectRedis, createRedis, deletePrefix, scanPrefix } from '../store/redis.js';
 import type { DemoProgress } from './progress.js';
 
 /** The demo stopped on purpose (Ctrl-C) or because something it needs failed; `message` says which. */
@@ -74,40 +74,21 @@ export async function probeRedis(
 }
 
 /** Deletes every key under a prefix (SCAN + UNLINK); returns how many were deleted. */
-export async function deleteKeys(url: string, prefix: string): Promise<number> {
-  const redis = createRedis(url, 'producer');
-  redis.on('error', () => {});
-  try {
-    await connectRedis(redis);
-    const pattern = `${prefix.replace(/([{}[\]*?\\])/g, '\\$1')}*`;
-    let cursor = '0';
-    let n = 0;
-    do {
-      const [next, keys] = await redis.scan(cursor, 'MATCH', pattern, 'COUNT', 1000);
-      cursor = next;
-      if (keys.length > 0) n += await redis.unlink(...keys);
-    } while (cursor !== '0');
-    return n;
-  } finally {
-    await redis.quit().catch(() => redis.disconnect());
-  }
+export function deleteKeys(url: string, prefix: string): Promise<number> {
+  return withRedis(url, (redis) => deletePrefix(redis, prefix));
 }
 
 /** Counts keys under a prefix (tests check the demo left none). */
-export async function countKeys(url: string, prefix: string): Promise<number> {
+export function countKeys(url: string, prefix: string): Promise<number> {
+  return withRedis(url, (redis) => scanPrefix(redis, prefix, (keys) => keys.length));
+}
+
+async function withRedis<T>(url: string, use: (redis: Redis) => Promise<T>): Promise<T> {
   const redis = createRedis(url, 'producer');
   redis.on('error', () => {});
   try {
     await connectRedis(redis);
-    const pattern = `${prefix.replace(/([{}[\]*?\\])/g, '\\$1')}*`;
-    let cursor = '0';
-    let n = 0;
-    do {
-      const [next, keys] = await redis.scan(cursor, 'MATCH', pattern, 'COUNT', 1000);
-      cursor = next;
-      n += keys.length;
-    } while (cursor !== '0');
-    return n;
+    return await use(redis);
   } finally {
     await redis.quit().catch(() => redis.disconnect());
   }

@@ -69,3 +69,28 @@ export async function checkEvictionPolicy(
   }
   return policy;
 }
+
+/**
+ * Visits every key that starts with `prefix` (SCAN, so Redis is never blocked); glob characters in the
+ * prefix are escaped. Returns the sum of what `visit` returns.
+ */
+export async function scanPrefix(
+  redis: Redis,
+  prefix: string,
+  visit: (keys: string[]) => Promise<number> | number,
+): Promise<number> {
+  const pattern = `${prefix.replace(/([{}[\]*?\\])/g, '\\$1')}*`;
+  let cursor = '0';
+  let n = 0;
+  do {
+    const [next, keys] = await redis.scan(cursor, 'MATCH', pattern, 'COUNT', 1000);
+    cursor = next;
+    if (keys.length > 0) n += await visit(keys);
+  } while (cursor !== '0');
+  return n;
+}
+
+/** Deletes every key that starts with `prefix`; returns how many were deleted. */
+export function deletePrefix(redis: Redis, prefix: string): Promise<number> {
+  return scanPrefix(redis, prefix, (keys) => redis.unlink(...keys));
+}

@@ -4,6 +4,7 @@ import type { RuleSetRef, SpectrumResult } from '../engine/report/result.js';
 import type { RuleSet } from '../engine/rules/schema.js';
 import type { Spectrum } from '../engine/spectrum/spectrum.js';
 import { type RedisKeys, redisKeys } from './keys.js';
+import { deletePrefix } from './redis.js';
 import type {
   BatchMetadata,
   BatchOptions,
@@ -553,15 +554,7 @@ export class Store {
 
   /** Deletes every key under this store's prefix (tests and tear-down only). */
   async deleteEverything(): Promise<number> {
-    let cursor = '0';
-    let n = 0;
-    const pattern = `${this.keys.prefix.replace(/([{}[\]*?\\])/g, '\\$1')}:*`;
-    do {
-      const [next, keys] = await this.redis.scan(cursor, 'MATCH', pattern, 'COUNT', 1000);
-      cursor = next;
-      if (keys.length > 0) n += await this.redis.unlink(...keys);
-    } while (cursor !== '0');
-    return n;
+    return deletePrefix(this.redis, `${this.keys.prefix}:`);
   }
 }
 
