@@ -5,6 +5,7 @@ import type { CompiledRuleSet } from '../rules/compile.js';
 import type { CleanSpectrum } from '../spectrum/clean.js';
 import type { TreeSolution } from '../tree/graph.js';
 import { fragmentDelta, type Interpretation, type PrecursorHypothesis } from './precursor.js';
+import { LruCache } from './cache.js';
 import { enumerateTopologies, removedKey, searchTopologies, type Topology } from './topology.js';
 
 /** A peak a candidate explains, with the ion it reads it as. */
@@ -110,18 +111,25 @@ export function compositionBounds(
   return bound;
 }
 
-const searchCache = new WeakMap<CompiledRuleSet, Map<string, Topology>>();
+/** Topologies visited by local search, by composition and notation (they depend on the rule set only). */
+const searchCache = new WeakMap<CompiledRuleSet, LruCache<string, Topology>>();
 
-function searchCacheFor(rules: CompiledRuleSet): Map<string, Topology> {
+function searchCacheFor(rules: CompiledRuleSet): LruCache<string, Topology> {
   let cache = searchCache.get(rules);
   if (!cache) {
-    cache = new Map();
+    cache = new LruCache(SEARCH_CACHE_SIZE);
     searchCache.set(rules, cache);
   }
   return cache;
 }
 
-const topologyCache = new WeakMap<CompiledRuleSet, Map<string, Topology[]>>();
+/** Enumerated topologies per composition (they depend on the rule set only). */
+const topologyCache = new WeakMap<CompiledRuleSet, LruCache<string, Topology[]>>();
+
+/** Compositions whose enumerated topologies are kept (each list holds up to `maxTopologies`, ~1 KB each). */
+const TOPOLOGY_CACHE_SIZE = 1_000;
+/** Searched topologies kept (~1–3 KB each). */
+const SEARCH_CACHE_SIZE = 10_000;
 
 function topologiesFor(
   rules: CompiledRuleSet,
@@ -131,18 +139,12 @@ function topologiesFor(
 ): Topology[] {
   let cache = topologyCache.get(rules);
   if (!cache) {
-    cache = new Map();
+    cache = new LruCache(TOPOLOGY_CACHE_SIZE);
     topologyCache.set(rules, cache);
   }
-  const key = `${units.join(',')}|${maxCLinked}|${limit}`;
-  let list = cache.get(key);
-  if (!list) {
-    list = enumerateTopologies(units, rules.units, { maxCLinked, limit });
-    // Bounded: each entry holds up to `limit` topologies (a few KB each).
-    if (cache.size > 50) cache.clear();
-    cache.set(key, list);
-  }
-  return list;
+  return cache.getOrSet(`${units.join(',')}|${maxCLinked}|${limit}`, () =>
+    enumerateTopologies(units, rules.units, { maxCLinked, limit }),
+  );
 }
 
 /** One interpretation of a solved hypothesis, screened before its topologies are enumerated. */

@@ -1,3 +1,4 @@
+import type { LruCache } from './cache.js';
 import type { Unit } from '../rules/compile.js';
 
 /**
@@ -224,7 +225,7 @@ export interface SearchOptions {
   /** Improvement rounds per start. @defaultValue 5 */
   maxRounds?: number;
   /** Topologies already built, by composition and notation (shared across calls). */
-  cache?: Map<string, Topology>;
+  cache?: LruCache<string, Topology>;
 }
 
 /**
@@ -259,10 +260,7 @@ export function searchTopologies(
     let topo = options.cache?.get(cacheKey);
     if (!topo) {
       topo = makeTopology(unit.slice(), parent.slice(), linkage.slice(), notation, composition.length);
-      if (options.cache) {
-        if (options.cache.size > 2_000) options.cache.clear(); // a few KB per topology: bounded memory
-        options.cache.set(cacheKey, topo);
-      }
+      options.cache?.set(cacheKey, topo);
     }
     const s = score(topo);
     visited.set(notation, s);
