@@ -111,25 +111,11 @@ export function compositionBounds(
   return bound;
 }
 
-/** Topologies visited by local search, by composition and notation (they depend on the rule set only). */
-const searchCache = new WeakMap<CompiledRuleSet, LruCache<string, Topology>>();
-
-function searchCacheFor(rules: CompiledRuleSet): LruCache<string, Topology> {
-  let cache = searchCache.get(rules);
-  if (!cache) {
-    cache = new LruCache(SEARCH_CACHE_SIZE);
-    searchCache.set(rules, cache);
-  }
-  return cache;
-}
-
 /** Enumerated topologies per composition (they depend on the rule set only). */
 const topologyCache = new WeakMap<CompiledRuleSet, LruCache<string, Topology[]>>();
 
 /** Compositions whose enumerated topologies are kept (each list holds up to `maxTopologies`, ~1 KB each). */
 const TOPOLOGY_CACHE_SIZE = 1_000;
-/** Searched topologies kept (~1–3 KB each). */
-const SEARCH_CACHE_SIZE = 10_000;
 
 function topologiesFor(
   rules: CompiledRuleSet,
@@ -146,6 +132,9 @@ function topologiesFor(
     enumerateTopologies(units, rules.units, { maxCLinked, limit }),
   );
 }
+
+/** Weight of the fragmentation tree's score in a candidate's score. */
+export const TREE_WEIGHT = 0.05;
 
 /** One interpretation of a solved hypothesis, screened before its topologies are enumerated. */
 export interface ScreenedInterpretation {
@@ -230,10 +219,25 @@ export function screenInterpretations(
     const fixed = -ppmTerm - unknown - 0.1 * nUnits + prior + envelopeTerm;
     // Bare Y0 (every unit lost) or a cross-ring ion: without either, every topology pays the Y0 penalty.
     const allKey = removedKey(compUnits);
-    const aglyconeSeen = readings.some((r) =>
-      r.list.some((x) => (x.kind === 0 && x.key === allKey) || x.kind === 2),
-    );
-    const screenScore = 10 * bound[ci]! + fixed - (aglyconeSeen ? 0 : 2 * w.missingIon);
+    let aglyconeSeen = false;
+    let crossSeen = false;
+    const yKeys = new Set<number>();
+    for (const r of readings)
+      for (const x of r.list) {
+        if (x.kind === 0 && x.key === allKey) aglyconeSeen = true;
+        if (x.kind === 2) crossSeen = aglyconeSeen = true;
+        if (x.kind === 0 && x.key !== 0 && x.key !== allKey) yKeys.add(x.key);
+      }
+    // Every topology predicts at least one Y ion per retained-unit count (a linear extension's prefixes): with
+    // n units of which at most c are C-linked (fixed), n − c − 1 intermediate Y ions, each missing one costed.
+    let cLinkable = 0;
+    compUnits.forEach((k, u) => {
+      if (rules.units[u]!.linkages.includes('C')) cLinkable += k;
+    });
+    const maxC = crossSeen ? Math.min(2, cLinkable) : 0; // as in evaluateTopologies
+    const missingY = Math.max(0, nUnits - maxC - 1 - yKeys.size);
+    const screenScore =
+      10 * bound[ci]! + fixed - (aglyconeSeen ? 0 : 2 * w.missingIon) - 0.25 * w.missingIon * missingY;
     out.push({
       hypothesis: h,
       matched: hg,
@@ -305,7 +309,7 @@ export function evaluateTopologies(
   const w = rules.rules.scoring;
   const window = options.window ?? 4;
   const { hypothesis: h, interpretation: interp, readings, y0 } = s;
-  const fixed = s.fixed + 0.05 * tree.score;
+  const fixed = s.fixed + TREE_WEIGHT * tree.score;
   const hg = s.matched;
   const compUnits = hg.compositions[s.comp]!;
   const precursorShare = spectrum.precursorIndex >= 0 ? spectrum.intensity[spectrum.precursorIndex]! : 0;
@@ -333,7 +337,7 @@ export function evaluateTopologies(
   const seenLoss = new Set<number>();
   const seenCross = new Set<number>();
 
-  const scoreTopology = (topo: Topology): number => {
+  const scoreTopology = (topo: Topology, keep?: () => Topology): number => {
     let explained = precursorShare;
     // Intensity read as an ion itself counts fully, read as that ion after small losses a little less.
     let weighted = precursorShare;
@@ -380,7 +384,9 @@ export function evaluateTopologies(
         }
       }
     }
-    for (const key of topo.yLosses) {
+    const yl = topo.yLosses;
+    for (let k = 0; k < yl.size; k++) {
+      const key = yl.keys[k]!;
       if (key !== 0 && key !== topo.y0Loss && !seenLoss.has(key)) missingY++;
     }
     penalty += 0.25 * w.missingIon * missingY;
@@ -399,7 +405,7 @@ export function evaluateTopologies(
       insertSorted(perComposition, {
         hypothesis: h,
         interpretation: interp,
-        topology: topo,
+        topology: keep ? keep() : topo,
         y0,
         explained: Math.min(1, explained),
         score,
@@ -421,10 +427,7 @@ export function evaluateTopologies(
     for (const topo of topologiesFor(rules, compUnits, maxC, options.maxTopologies ?? 400))
       scoreTopology(topo);
   } else {
-    searchTopologies(compUnits, rules.units, scoreTopology, {
-      maxCLinked: maxC,
-      cache: searchCacheFor(rules),
-    });
+    searchTopologies(compUnits, rules.units, scoreTopology, { maxCLinked: maxC });
   }
   if (!options.only)
     topologyRuns.set(readings, { comp: s.comp, fixed, prior: s.prior, candidates: perComposition });

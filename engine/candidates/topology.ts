@@ -1,4 +1,3 @@
-import type { LruCache } from './cache.js';
 import type { Unit } from '../rules/compile.js';
 
 /**
@@ -14,15 +13,50 @@ export interface Topology {
   /** Canonical stacking string without the aglycone, e.g. `[Hex[Pen]][Hex]` (docs/stacking-notation.md). */
   readonly notation: string;
   /** Keys ({@link removedKey}) of the unit multisets whose loss gives a Y ion of this topology. */
-  readonly yLosses: ReadonlySet<number>;
+  readonly yLosses: KeySet;
   /** Keys of unit multisets that can leave as one oxonium (B) or acylium ion (terminal subtrees). */
-  readonly bUnits: ReadonlySet<number>;
+  readonly bUnits: KeySet;
   /** Key of the multiset whose loss leaves the bare aglycone (every unit but C-linked residues). */
   readonly y0Loss: number;
   /** Whether some residue is C-linked (cross-ring ions expected, no loss of that residue). */
   readonly cLinked: boolean;
   /** C-linked instances per unit index. */
   readonly cCounts: Uint8Array;
+}
+
+/** A sorted set of distinct keys in a typed array: cheap to build and to probe (a topology has ≤ 2^n). */
+export class KeySet implements Iterable<number> {
+  constructor(
+    /** Sorted, distinct in `[0, size)`. */
+    readonly keys: Float64Array,
+    /** Set by the owner of a reused buffer (a search's view); fixed otherwise. */
+    public size: number,
+  ) {}
+
+  has(key: number): boolean {
+    let lo = 0;
+    let hi = this.size - 1;
+    while (lo <= hi) {
+      const m = (lo + hi) >> 1;
+      const k = this.keys[m]!;
+      if (k === key) return true;
+      if (k < key) lo = m + 1;
+      else hi = m - 1;
+    }
+    return false;
+  }
+
+  *[Symbol.iterator](): Iterator<number> {
+    for (let i = 0; i < this.size; i++) yield this.keys[i]!;
+  }
+}
+
+/** Sorts `a[0, n)` in place and moves its distinct values to the front; returns how many there are. */
+function sortUnique(a: Float64Array, n: number): number {
+  a.subarray(0, n).sort();
+  let m = 0;
+  for (let i = 0; i < n; i++) if (m === 0 || a[i] !== a[m - 1]) a[m++] = a[i]!;
+  return m;
 }
 
 /** A number identifying a unit count vector (counts < 8 per unit). */
@@ -224,19 +258,23 @@ export interface SearchOptions {
   maxCLinked?: number;
   /** Improvement rounds per start. @defaultValue 5 */
   maxRounds?: number;
-  /** Topologies already built, by composition and notation (shared across calls). */
-  cache?: LruCache<string, Topology>;
 }
+
+/**
+ * Scores a topology. During a search the topology is a view rewritten at every step: valid for the call
+ * only; `keep()` returns a copy that stays valid (built only for topologies worth keeping).
+ */
+export type TopologyScorer = (t: Topology, keep: () => Topology) => number;
 
 /**
  * Local search over topologies of a composition too large to enumerate: from a chain and from a star,
  * repeatedly re-hangs one unit (or flips an aglycone-bound residue between O and C) while the score rises.
- * Calls `score` for every topology it visits.
+ * Calls `score` once for every distinct topology it visits.
  */
 export function searchTopologies(
   composition: Uint8Array,
   units: readonly Unit[],
-  score: (t: Topology) => number,
+  score: TopologyScorer,
   options: SearchOptions = {},
 ): void {
   const unit: number[] = [];
@@ -249,21 +287,19 @@ export function searchTopologies(
   });
   const n = unit.length;
   const maxC = options.maxCLinked ?? 0;
-  const visited = new Map<string, number>();
-  const compositionKey = composition.join(',');
-  const evaluate = (parent: number[], linkage: ('O' | 'C' | 'ester')[]): number => {
-    const notation = canonical(unit, parent, linkage, units);
-    const hit = visited.get(notation);
+  const predictor = new Predictor(unit, composition.length);
+  const hasher = new ShapeHasher(unit, n);
+  // Distinct topologies by their shape hash (a 52-bit hash of the canonical form: collisions are negligible
+  // among the few hundred topologies one search visits).
+  const visited = new Map<number, number>();
+  const view = predictor.view(units);
+  const evaluate = (parent: number[], linkage: Linkage[]): number => {
+    const h = hasher.hash(parent, linkage);
+    const hit = visited.get(h);
     if (hit !== undefined) return hit;
-    // Topologies depend on the composition only: share them across spectra.
-    const cacheKey = `${compositionKey}|${notation}`;
-    let topo = options.cache?.get(cacheKey);
-    if (!topo) {
-      topo = makeTopology(unit.slice(), parent.slice(), linkage.slice(), notation, composition.length);
-      options.cache?.set(cacheKey, topo);
-    }
-    const s = score(topo);
-    visited.set(notation, s);
+    predictor.predict(parent, linkage);
+    const s = score(view, () => predictor.freeze(units));
+    visited.set(h, s);
     return s;
   };
   const createsCycle = (parent: number[], i: number, p: number): boolean => {
@@ -276,49 +312,289 @@ export function searchTopologies(
     chain.fill(-1);
     star.fill(-1);
   }
-  const baseLink = unit.map((_, i) => (i < nRes ? 'O' : 'ester') as 'O' | 'C' | 'ester');
+  const baseLink = unit.map((_, i) => (i < nRes ? 'O' : 'ester') as Linkage);
   // Two starts for mid-sized compositions; the chain alone (the commonest shape) beyond six units.
   for (const start of n > 5 ? [chain] : [chain, star]) {
-    let parent = start.slice();
-    let linkage = baseLink.slice();
+    // Moves are tried in place on `parent` / `linkage` and undone; the best one is then applied.
+    const parent = start.slice();
+    const linkage = baseLink.slice();
     let current = evaluate(parent, linkage);
+    let cCount = 0;
     for (let round = 0; round < (options.maxRounds ?? 5); round++) {
       let bestScore = current;
-      let bestParent: number[] | undefined;
-      let bestLink: ('O' | 'C' | 'ester')[] | undefined;
+      let bestI = -1;
+      let bestP = 0;
+      let bestFlip = false;
       for (let i = 0; i < n; i++) {
+        const p0 = parent[i]!;
+        const l0 = linkage[i]!;
         for (let p = -1; p < nRes; p++) {
-          if (p === i || p === parent[i] || (p >= 0 && createsCycle(parent, i, p))) continue;
-          const next = parent.slice();
-          next[i] = p;
-          const link = linkage.slice();
-          if (i < nRes && p >= 0) link[i] = 'O';
-          const s = evaluate(next, link);
+          if (p === i || p === p0 || (p >= 0 && createsCycle(parent, i, p))) continue;
+          parent[i] = p;
+          if (i < nRes && p >= 0) linkage[i] = 'O'; // a residue on another residue is O-linked
+          const s = evaluate(parent, linkage);
+          parent[i] = p0;
+          linkage[i] = l0;
           if (s > bestScore + 1e-9) {
             bestScore = s;
-            bestParent = next;
-            bestLink = link;
+            bestI = i;
+            bestP = p;
+            bestFlip = false;
           }
         }
         // O ↔ C on a residue bound to the aglycone.
-        if (i < nRes && parent[i] === -1 && units[unit[i]!]!.linkages.includes('C')) {
-          const link = linkage.slice();
-          link[i] = link[i] === 'C' ? 'O' : 'C';
-          if (link.filter((l) => l === 'C').length <= maxC) {
-            const s = evaluate(parent, link);
+        if (i < nRes && p0 === -1 && units[unit[i]!]!.linkages.includes('C')) {
+          const flipped: Linkage = l0 === 'C' ? 'O' : 'C';
+          if (flipped === 'O' || cCount + 1 <= maxC) {
+            linkage[i] = flipped;
+            const s = evaluate(parent, linkage);
+            linkage[i] = l0;
             if (s > bestScore + 1e-9) {
               bestScore = s;
-              bestParent = parent.slice();
-              bestLink = link;
+              bestI = i;
+              bestFlip = true;
             }
           }
         }
       }
-      if (!bestParent || !bestLink) break;
-      parent = bestParent;
-      linkage = bestLink;
+      if (bestI < 0) break;
+      if (bestFlip) {
+        linkage[bestI] = linkage[bestI] === 'C' ? 'O' : 'C';
+      } else {
+        parent[bestI] = bestP;
+        if (bestI < nRes && bestP >= 0) linkage[bestI] = 'O';
+      }
+      cCount = linkage.reduce((a, l) => a + (l === 'C' ? 1 : 0), 0);
       current = bestScore;
     }
+  }
+}
+
+type Linkage = 'O' | 'C' | 'ester';
+
+/** 32-bit mix (murmur3 finaliser). */
+function mix32(x: number): number {
+  let h = x | 0;
+  h = Math.imul(h ^ (h >>> 16), 0x85ebca6b);
+  h = Math.imul(h ^ (h >>> 13), 0xc2b2ae35);
+  return (h ^ (h >>> 16)) >>> 0;
+}
+
+/**
+ * Hashes a topology's shape up to symmetry: each instance's code mixes its unit and linkage with the sum of
+ * its children's mixed codes (a sum is blind to the children's order), in two independent 32-bit lanes.
+ */
+class ShapeHasher {
+  readonly #symbol: Int32Array;
+  readonly #lo: Uint32Array;
+  readonly #hi: Uint32Array;
+  readonly #order: Int32Array;
+
+  constructor(
+    unit: readonly number[],
+    readonly n: number,
+  ) {
+    this.#symbol = Int32Array.from(unit, (u) => u * 4 + 1);
+    this.#lo = new Uint32Array(n);
+    this.#hi = new Uint32Array(n);
+    this.#order = new Int32Array(n);
+  }
+
+  hash(parent: readonly number[], linkage: readonly Linkage[]): number {
+    const n = this.n;
+    const lo = this.#lo;
+    const hi = this.#hi;
+    const order = this.#order;
+    // Deepest instances first, so each child is finished before its parent.
+    const depth = (i: number) => {
+      let d = 0;
+      for (let j = parent[i]!; j >= 0; j = parent[j]!) d++;
+      return d;
+    };
+    let m = 0;
+    for (let d = n; d >= 0; d--) for (let i = 0; i < n; i++) if (depth(i) === d) order[m++] = i;
+    lo.fill(0);
+    hi.fill(0);
+    let rootLo = 0;
+    let rootHi = 0;
+    for (let k = 0; k < n; k++) {
+      const i = order[k]!;
+      const sym = this.#symbol[i]! + (linkage[i] === 'C' ? 1 : 0);
+      const a = mix32(mix32(sym * 0x9e3779b1) + lo[i]!);
+      const b = mix32(mix32(sym ^ 0x5bd1e995) ^ mix32(hi[i]! + 0x27d4eb2f));
+      const p = parent[i]!;
+      if (p >= 0) {
+        lo[p] = (lo[p]! + mix32(a + 0x165667b1)) >>> 0;
+        hi[p] = (hi[p]! + mix32(b ^ 0x61c88647)) >>> 0;
+      } else {
+        rootLo = (rootLo + mix32(a + 0x165667b1)) >>> 0;
+        rootHi = (rootHi + mix32(b ^ 0x61c88647)) >>> 0;
+      }
+    }
+    return (rootHi >>> 11) * 0x100000000 + rootLo;
+  }
+}
+
+/**
+ * Computes a topology's predictions (Y losses, B units, Y0 loss, C-links) into reusable buffers, for a fixed
+ * list of unit instances; {@link Predictor.freeze} copies the current one into a standalone {@link Topology}.
+ */
+class Predictor {
+  readonly n: number;
+  readonly #weight: Float64Array;
+  readonly #total: number;
+  readonly #kept: Float64Array;
+  readonly #req: Int32Array;
+  readonly #yKeys: Float64Array;
+  readonly #bKeys: Float64Array;
+  readonly #subtree: Float64Array;
+  readonly #cCounts: Uint8Array;
+  #parent: readonly number[] = [];
+  #linkage: readonly Linkage[] = [];
+  #ySize = 0;
+  #bSize = 0;
+  #y0Loss = 0;
+  #cLinked = false;
+  #view: TopologyView | undefined;
+
+  constructor(
+    readonly unit: readonly number[],
+    readonly nUnits: number,
+  ) {
+    const n = unit.length;
+    this.n = n;
+    // A Y-loss key is Σ 8^unit over the lost instances (removedKey of their counts): sum weights directly.
+    this.#weight = Float64Array.from(unit, (u) => 8 ** u);
+    this.#total = this.#weight.reduce((a, b) => a + b, 0);
+    this.#kept = new Float64Array(1 << n);
+    this.#req = new Int32Array(1 << n);
+    this.#yKeys = new Float64Array(1 << n);
+    this.#bKeys = new Float64Array(n);
+    this.#subtree = new Float64Array(n);
+    this.#cCounts = new Uint8Array(nUnits);
+  }
+
+  predict(parent: readonly number[], linkage: readonly Linkage[]): void {
+    const n = this.n;
+    const weight = this.#weight;
+    const kept = this.#kept;
+    const req = this.#req;
+    this.#parent = parent;
+    this.#linkage = linkage;
+    // Retained sets: closed towards the aglycone (each kept instance's parent kept), holding every C-linked
+    // residue. kept[mask] and req[mask] (the parents the set needs) grow from mask without its lowest bit.
+    let fixedMask = 0;
+    this.#cCounts.fill(0);
+    for (let i = 0; i < n; i++) {
+      if (linkage[i] === 'C' && parent[i] === -1) {
+        fixedMask |= 1 << i;
+        this.#cCounts[this.unit[i]!]!++;
+      }
+    }
+    const full = 1 << n;
+    let ny = 0;
+    if (fixedMask === 0) this.#yKeys[ny++] = this.#total;
+    for (let mask = 1; mask < full; mask++) {
+      const low = mask & -mask;
+      const i = 31 - Math.clz32(low);
+      const prev = mask ^ low;
+      const p = parent[i]!;
+      kept[mask] = kept[prev]! + weight[i]!;
+      req[mask] = req[prev]! | (p >= 0 ? 1 << p : 0);
+      if ((mask & fixedMask) === fixedMask && (req[mask]! & ~mask) === 0)
+        this.#yKeys[ny++] = this.#total - kept[mask]!;
+    }
+    this.#ySize = sortUnique(this.#yKeys, ny);
+    // Terminal subtrees (an instance with all its descendants) leave as B / acylium ions.
+    const subtree = this.#subtree;
+    subtree.fill(0);
+    for (let i = 0; i < n; i++) for (let j = i; j >= 0; j = parent[j]!) subtree[j]! += weight[i]!;
+    let nb = 0;
+    let y0Loss = 0;
+    for (let i = 0; i < n; i++) {
+      if ((fixedMask >> i) & 1) continue;
+      this.#bKeys[nb++] = subtree[i]!;
+      y0Loss += weight[i]!;
+    }
+    this.#bSize = sortUnique(this.#bKeys, nb);
+    this.#y0Loss = y0Loss;
+    this.#cLinked = fixedMask !== 0;
+    this.#view?.sync();
+  }
+
+  /** A view of the current prediction (rewritten by the next {@link Predictor.predict}). */
+  view(units: readonly Unit[]): Topology {
+    this.#view ??= new TopologyView(this, units);
+    return this.#view;
+  }
+
+  get parent(): readonly number[] {
+    return this.#parent;
+  }
+
+  get linkage(): readonly Linkage[] {
+    return this.#linkage;
+  }
+
+  /** The current keys in the given sets (which share this predictor's buffers). */
+  fill(view: TopologyView): void {
+    view.yLosses.size = this.#ySize;
+    view.bUnits.size = this.#bSize;
+    view.y0Loss = this.#y0Loss;
+    view.cLinked = this.#cLinked;
+  }
+
+  /** Buffers the view reads. */
+  buffers(): { y: Float64Array; b: Float64Array; c: Uint8Array } {
+    return { y: this.#yKeys, b: this.#bKeys, c: this.#cCounts };
+  }
+
+  /** A standalone copy of the current prediction. */
+  freeze(units: readonly Unit[], notation?: string): Topology {
+    return {
+      unit: this.unit.slice(),
+      parent: this.#parent.slice(),
+      linkage: this.#linkage.slice(),
+      notation: notation ?? canonical(this.unit, this.#parent, this.#linkage, units),
+      yLosses: new KeySet(this.#yKeys.slice(0, this.#ySize), this.#ySize),
+      bUnits: new KeySet(this.#bKeys.slice(0, this.#bSize), this.#bSize),
+      y0Loss: this.#y0Loss,
+      cLinked: this.#cLinked,
+      cCounts: this.#cCounts.slice(),
+    };
+  }
+}
+
+/** The current prediction of a {@link Predictor}, as a {@link Topology} (valid until its next prediction). */
+class TopologyView implements Topology {
+  readonly unit: readonly number[];
+  parent: readonly number[] = [];
+  linkage: readonly Linkage[] = [];
+  readonly yLosses: KeySet;
+  readonly bUnits: KeySet;
+  y0Loss = 0;
+  cLinked = false;
+  readonly cCounts: Uint8Array;
+
+  constructor(
+    readonly predictor: Predictor,
+    readonly units: readonly Unit[],
+  ) {
+    const b = predictor.buffers();
+    this.unit = predictor.unit;
+    this.yLosses = new KeySet(b.y, 0);
+    this.bUnits = new KeySet(b.b, 0);
+    this.cCounts = b.c;
+  }
+
+  get notation(): string {
+    return canonical(this.unit, this.parent, this.linkage, this.units);
+  }
+
+  sync(): void {
+    this.parent = this.predictor.parent;
+    this.linkage = this.predictor.linkage;
+    this.predictor.fill(this);
   }
 }
 
@@ -326,52 +602,11 @@ export function searchTopologies(
 export function makeTopology(
   unit: number[],
   parent: number[],
-  linkage: ('O' | 'C' | 'ester')[],
+  linkage: Linkage[],
   notation: string,
   nUnits: number,
 ): Topology {
-  const n = unit.length;
-  const yLosses = new Set<number>();
-  const bUnits = new Set<number>();
-  // A Y-loss key is Σ 8^unit over the lost instances (removedKey of their counts): sum weights directly.
-  const weight = unit.map((u) => 8 ** u);
-  const total = weight.reduce((a, b) => a + b, 0);
-  // Retained sets: closed towards the aglycone, holding every C-linked residue.
-  let fixedMask = 0;
-  const cCounts = new Uint8Array(nUnits);
-  for (let i = 0; i < n; i++) {
-    if (linkage[i] === 'C' && parent[i] === -1) {
-      fixedMask |= 1 << i;
-      cCounts[unit[i]!]!++;
-    }
-  }
-  for (let mask = 0; mask < 1 << n; mask++) {
-    if ((mask & fixedMask) !== fixedMask) continue;
-    let ok = true;
-    let kept = 0;
-    for (let i = 0; i < n; i++) {
-      if (!((mask >> i) & 1)) continue;
-      const p = parent[i]!;
-      if (p >= 0 && !((mask >> p) & 1)) {
-        ok = false;
-        break;
-      }
-      kept += weight[i]!;
-    }
-    if (ok) yLosses.add(total - kept);
-  }
-  // Terminal subtrees (a unit with all its descendants) leave as B / acylium ions.
-  // Each instance's weight is added to itself and every ancestor: subtree[i] is its subtree's key.
-  const subtree = new Float64Array(n);
-  const add = (i: number, w: number) => {
-    for (let j = i; j >= 0; j = parent[j]!) subtree[j]! += w;
-  };
-  for (let i = 0; i < n; i++) add(i, weight[i]!);
-  let y0Loss = 0;
-  for (let i = 0; i < n; i++) {
-    if ((fixedMask >> i) & 1) continue;
-    bUnits.add(subtree[i]!);
-    y0Loss += weight[i]!;
-  }
-  return { unit, parent, linkage, notation, yLosses, bUnits, y0Loss, cLinked: fixedMask !== 0, cCounts };
+  const p = new Predictor(unit, nUnits);
+  p.predict(parent, linkage);
+  return p.freeze([], notation);
 }

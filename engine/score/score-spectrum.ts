@@ -6,6 +6,7 @@ import {
   evaluateTopologies,
   type ScreenedInterpretation,
   screenInterpretations,
+  TREE_WEIGHT,
 } from '../candidates/evaluate.js';
 import { interpretPrecursor } from '../candidates/precursor.js';
 import {
@@ -32,9 +33,9 @@ import { solveTree } from '../tree/solve.js';
 /** Interpretations (aglycone + composition) whose topologies are enumerated per spectrum. */
 const MAX_INTERPRETATIONS = 10;
 
-/** What the tree can add to a candidate's score at most (0.05 × at most ~4 per edge). */
+/** What the tree can add to a candidate's score at most (TREE_WEIGHT × at most ~4 per edge). */
 function treeAllowance(m: MatchedHypothesis): number {
-  return 0.2 * m.nodes.length;
+  return TREE_WEIGHT * 4 * m.nodes.length;
 }
 
 /** A candidate structure a user supplies, in Peel's stacking notation (docs/stacking-notation.md). */
@@ -162,6 +163,8 @@ function scoreUnchecked(
       solvedOf.set(x.matched, s);
       solved.push(s);
     }
+    // With the tree solved its term is known: skip interpretations that cannot reach the window.
+    if (x.screenScore + TREE_WEIGHT * s.tree.score < best.score - window) continue;
     s.candidates.push(...evaluateTopologies(x, s.tree, clean, compiled, evaluateOptions));
     evaluated++;
   }

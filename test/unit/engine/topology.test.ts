@@ -266,13 +266,53 @@ describe('searchTopologies (local search for large compositions)', () => {
     searchTopologies(
       comp('Hex', 'Hex', 'Hex', 'Pen', 'Pen'),
       units,
-      (t) => {
-        withC.push(t);
+      (t, keep) => {
+        withC.push(keep()); // the search's topology is a view valid during the call only
         return t.cLinked ? 1 : 0;
       },
       { maxCLinked: 1 },
     );
     expect(withC.some((t) => t.cLinked)).toBe(true);
     for (const t of withC) expect(t.linkage.filter((l) => l === 'C').length).toBeLessThanOrEqual(1);
+    // The kept copies are independent of the view and carry the same predictions as a fresh build.
+    expect(new Set(withC.map((t) => t.notation)).size).toBe(withC.length);
+    for (const t of withC) {
+      const again = makeTopology([...t.unit], [...t.parent], [...t.linkage], t.notation, units.length);
+      expect([...t.yLosses]).toEqual([...again.yLosses]);
+      expect([...t.bUnits]).toEqual([...again.bUnits]);
+      expect(t.y0Loss).toBe(again.y0Loss);
+    }
+  });
+
+  it('predicts the same Y losses as the brute-force definition for every visited topology', () => {
+    // Y ions retain a set of instances closed towards the aglycone that holds every C-linked residue; the key
+    // of what is lost is Σ 8^unit (removedKey). Checked against a plain enumeration of all subsets.
+    const c = comp('Hex', 'Hex', 'Pen', 'dHex', 'malonyl');
+    let checked = 0;
+    searchTopologies(
+      c,
+      units,
+      (t) => {
+        const n = t.unit.length;
+        const expected = new Set<number>();
+        for (let mask = 0; mask < 1 << n; mask++) {
+          let ok = true;
+          let lost = 0;
+          for (let i = 0; i < n; i++) {
+            const kept = (mask >> i) & 1;
+            const p = t.parent[i]!;
+            if (kept && p >= 0 && !((mask >> p) & 1)) ok = false;
+            if (!kept && t.linkage[i] === 'C') ok = false;
+            if (!kept) lost += 8 ** t.unit[i]!;
+          }
+          if (ok) expected.add(lost);
+        }
+        expect(new Set(t.yLosses)).toEqual(expected);
+        checked++;
+        return t.parent.filter((p) => p === -1).length + (t.cLinked ? 0.5 : 0);
+      },
+      { maxCLinked: 1 },
+    );
+    expect(checked).toBeGreaterThan(20);
   });
 });
