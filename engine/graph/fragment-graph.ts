@@ -88,6 +88,58 @@ function keepsOnlyCLinkable(comp: Uint8Array, removed: Uint8Array, units: Compil
   return kept > 0;
 }
 
+/** Loss combinations of one kind of fragment, sorted by mass, with their positions in the rule order. */
+interface ComboList {
+  /** Combination indices (into `lossCombos`), by ascending mass. */
+  readonly ids: Int32Array;
+  readonly mass: Float64Array;
+  /** Position of each in the rule order (matches are reported in that order). */
+  readonly pos: Int32Array;
+  /** Combination index by position. */
+  readonly byPos: Int32Array;
+}
+
+/** The four lists a fragment may use: plain losses, ladder ends (plus multi-loss), cross-ring, both. */
+interface ComboLists {
+  readonly plain: ComboList;
+  readonly ends: ComboList;
+  readonly cross: ComboList;
+  readonly all: ComboList;
+}
+
+const comboListCache = new WeakMap<CompiledRuleSet, Partial<Record<'positive' | 'negative', ComboLists>>>();
+
+function comboLists(rules: CompiledRuleSet, polarity: 'positive' | 'negative'): ComboLists {
+  let byPolarity = comboListCache.get(rules);
+  if (!byPolarity) {
+    byPolarity = {};
+    comboListCache.set(rules, byPolarity);
+  }
+  const hit = byPolarity[polarity];
+  if (hit) return hit;
+  const groups = rules.comboGroups[polarity];
+  const make = (order: number[]): ComboList => {
+    const byMass = order
+      .map((k, pos) => ({ k, pos }))
+      .sort((a, b) => rules.lossCombos[a.k]!.mass - rules.lossCombos[b.k]!.mass);
+    return {
+      ids: Int32Array.from(byMass, (x) => x.k),
+      mass: Float64Array.from(byMass, (x) => rules.lossCombos[x.k]!.mass),
+      pos: Int32Array.from(byMass, (x) => x.pos),
+      byPos: Int32Array.from(order),
+    };
+  };
+  const ends = [...groups.plain, ...groups.multi];
+  const lists: ComboLists = {
+    plain: make(groups.plain),
+    ends: make(ends),
+    cross: make([...groups.plain, ...groups.cross]),
+    all: make([...ends, ...groups.cross]),
+  };
+  byPolarity[polarity] = lists;
+  return lists;
+}
+
 const subCache = new Map<string, Uint8Array[]>();
 
 /** {@link subMultisets}, memoised by the vector (compositions repeat across spectra). */
@@ -250,10 +302,22 @@ export function matchHypothesis(
   const lost = new Int32Array(NE);
   const peakMz = spectrum.mz;
   // Multi-loss combinations on ladder ends only; cross-ring ones when a residue may be C-linked.
-  const groups = rules.comboGroups[options.polarity];
-  const comboEnds = [...groups.plain, ...groups.multi];
-  const comboCross = [...groups.plain, ...groups.cross];
-  const comboAll = [...comboEnds, ...groups.cross];
+  const lists = comboLists(rules, options.polarity);
+  // Peaks as ion atom masses (m/z × |z| + z electrons) per charge of a core, ascending like the m/z.
+  const atomsByCharge = new Map<number, Float64Array>();
+  for (const core of cores) {
+    const z = core.charge;
+    if (!atomsByCharge.has(z))
+      atomsByCharge.set(
+        z,
+        Float64Array.from(peakMz, (mz) => mz * Math.abs(z) + z * ELECTRON_MASS),
+      );
+  }
+  // Matches of one (removed, core) step, as (list position, radical, peak) codes sorted into the order a
+  // combination-by-combination scan would give.
+  let matches = new Int32Array(64);
+  const stride = nPeaks + 1;
+  const radicalOk = options.polarity === 'negative';
   comps.forEach((compUnits, ci) => {
     const hasC = compUnits.some((n, u) => n > 0 && units[u]!.linkages.includes('C'));
     const total = sum(compUnits);
@@ -267,6 +331,8 @@ export function matchHypothesis(
       }
       const lostMass = countsMass(lost);
       const ladderEnd = removedCount === total || removedCount === 0;
+      // Radical Y ions (H• lost too) only on the bare aglycone, in negative mode.
+      const maxRadical = radicalOk && removedCount === total ? 1 : 0;
       for (let coreIdx = 0; coreIdx < cores.length; coreIdx++) {
         const core = cores[coreIdx]!;
         const z = core.charge;
@@ -274,50 +340,83 @@ export function matchHypothesis(
         // Cross-ring ions come from the precursor or from fragments that keep only C-linkable residues
         // (the C-glycosidic core after its O-linked units are gone).
         const crossHere = hasC && (removedCount === 0 || keepsOnlyCLinkable(compUnits, removed, units));
-        const list = ladderEnd ? (crossHere ? comboAll : comboEnds) : crossHere ? comboCross : groups.plain;
-        for (const k of list) {
-          const combo = rules.lossCombos[k]!;
-          if (combo.crossRing >= 0) {
-            // Cross-ring cleavage needs its C-linkable residue(s) still in the fragment.
-            const r1 = rules.crossRingResidue[combo.crossRing]!;
-            const r2 = combo.crossRing2 >= 0 ? rules.crossRingResidue[combo.crossRing2]! : -1;
-            const need1 = 1 + (r2 === r1 ? 1 : 0);
-            if (compUnits[r1]! - removed[r1]! < need1) continue;
-            if (r2 >= 0 && r2 !== r1 && compUnits[r2]! - removed[r2]! < 1) continue;
-          }
-          const maxRadical =
-            options.polarity === 'negative' && !combo.radical && removedCount === total && combo.size <= 1
-              ? 1
-              : 0;
+        const list = ladderEnd ? (crossHere ? lists.all : lists.ends) : crossHere ? lists.cross : lists.plain;
+        if (list.ids.length === 0) continue;
+        // Peaks that some combination could explain: atoms in [rest − heaviest loss − H, rest], ± tolerance.
+        const rest = coreMass - lostMass;
+        const atomsOf = atomsByCharge.get(z)!;
+        const az = Math.abs(z);
+        const slack =
+          tolDa((rest - z * ELECTRON_MASS) / az, options.fragmentPpm, options.floorDa) * az * 1.01;
+        const lowAtoms = rest - list.mass[list.mass.length - 1]! - maxRadical * H_MASS - slack;
+        let lo = 0;
+        let hi = nPeaks;
+        while (lo < hi) {
+          const m = (lo + hi) >> 1;
+          if (atomsOf[m]! < lowAtoms) lo = m + 1;
+          else hi = m;
+        }
+        let nMatch = 0;
+        for (let p = lo; p < nPeaks && atomsOf[p]! <= rest + slack; p++) {
+          if (p === spectrum.precursorIndex) continue;
           for (let radical = 0; radical <= maxRadical; radical++) {
-            if (coreIdx === 0 && removedCount === 0 && combo.size === 0 && !radical) continue; // the precursor itself
-            const atoms = coreMass - lostMass - combo.mass - radical * H_MASS;
-            const mz = (atoms - z * ELECTRON_MASS) / Math.abs(z);
-            const tol = tolDa(mz, options.fragmentPpm, options.floorDa);
-            let lo = 0;
-            let hi = nPeaks;
-            while (lo < hi) {
-              const m = (lo + hi) >> 1;
-              if (peakMz[m]! < mz - tol) lo = m + 1;
-              else hi = m;
+            // The loss mass this peak asks of a combination, then the combinations near it.
+            const need = rest - radical * H_MASS - atomsOf[p]!;
+            let a = 0;
+            let b = list.mass.length;
+            while (a < b) {
+              const m = (a + b) >> 1;
+              if (list.mass[m]! < need - slack) a = m + 1;
+              else b = m;
             }
-            for (let p = lo; p < nPeaks && peakMz[p]! <= mz + tol; p++) {
-              if (p === spectrum.precursorIndex) continue;
-              let ok = true;
-              for (let e = 0; e < NE; e++) {
-                tmp[e] = core.counts[e]! - lost[e]! - combo.counts[e]! - (e === 1 ? radical : 0);
-                if (tmp[e]! < 0) ok = false;
+            for (let q = a; q < list.mass.length && list.mass[q]! <= need + slack; q++) {
+              const k = list.ids[q]!;
+              const combo = rules.lossCombos[k]!;
+              if (radical && (combo.radical || combo.size > 1)) continue;
+              if (coreIdx === 0 && removedCount === 0 && combo.size === 0 && !radical) continue; // the precursor itself
+              if (combo.crossRing >= 0) {
+                // Cross-ring cleavage needs its C-linkable residue(s) still in the fragment.
+                const r1 = rules.crossRingResidue[combo.crossRing]!;
+                const r2 = combo.crossRing2 >= 0 ? rules.crossRingResidue[combo.crossRing2]! : -1;
+                const need1 = 1 + (r2 === r1 ? 1 : 0);
+                if (compUnits[r1]! - removed[r1]! < need1) continue;
+                if (r2 >= 0 && r2 !== r1 && compUnits[r2]! - removed[r2]! < 1) continue;
               }
-              if (!ok) continue;
-              nodeFor(p, tmp, z).derivs.push({
-                comp: ci,
-                removed,
-                combo: k,
-                radical: radical as 0 | 1,
-                core: coreIdx,
-              });
+              // The exact test: the peak within tolerance of the ion's m/z.
+              const atoms = coreMass - lostMass - combo.mass - radical * H_MASS;
+              const mz = (atoms - z * ELECTRON_MASS) / az;
+              const tol = tolDa(mz, options.fragmentPpm, options.floorDa);
+              if (peakMz[p]! < mz - tol || peakMz[p]! > mz + tol) continue;
+              if (nMatch === matches.length) {
+                const grown = new Int32Array(matches.length * 2);
+                grown.set(matches);
+                matches = grown;
+              }
+              matches[nMatch++] = (list.pos[q]! * 2 + radical) * stride + p;
             }
           }
+        }
+        if (nMatch === 0) continue;
+        const found = matches.subarray(0, nMatch).sort();
+        for (let m = 0; m < nMatch; m++) {
+          const code = found[m]!;
+          const p = code % stride;
+          const radical = Math.floor(code / stride) % 2;
+          const k = list.byPos[Math.floor(code / (2 * stride))]!;
+          const combo = rules.lossCombos[k]!;
+          let ok = true;
+          for (let e = 0; e < NE; e++) {
+            tmp[e] = core.counts[e]! - lost[e]! - combo.counts[e]! - (e === 1 ? radical : 0);
+            if (tmp[e]! < 0) ok = false;
+          }
+          if (!ok) continue;
+          nodeFor(p, tmp, z).derivs.push({
+            comp: ci,
+            removed,
+            combo: k,
+            radical: radical as 0 | 1,
+            core: coreIdx,
+          });
         }
       }
     }
