@@ -287,7 +287,7 @@ export function searchTopologies(
   });
   const n = unit.length;
   const maxC = options.maxCLinked ?? 0;
-  const predictor = new Predictor(unit, composition.length);
+  const predictor = new Predictor(n, composition.length).setUnits(unit);
   const hasher = new ShapeHasher(unit, n);
   // Distinct topologies by their shape hash (a 52-bit hash of the canonical form: collisions are negligible
   // among the few hundred topologies one search visits).
@@ -440,15 +440,15 @@ class ShapeHasher {
  * list of unit instances; {@link Predictor.freeze} copies the current one into a standalone {@link Topology}.
  */
 class Predictor {
-  readonly n: number;
   readonly #weight: Float64Array;
-  readonly #total: number;
+  #total = 0;
   readonly #kept: Float64Array;
   readonly #req: Int32Array;
   readonly #yKeys: Float64Array;
   readonly #bKeys: Float64Array;
   readonly #subtree: Float64Array;
   readonly #cCounts: Uint8Array;
+  #unit: readonly number[] = [];
   #parent: readonly number[] = [];
   #linkage: readonly Linkage[] = [];
   #ySize = 0;
@@ -458,20 +458,35 @@ class Predictor {
   #view: TopologyView | undefined;
 
   constructor(
-    readonly unit: readonly number[],
+    /** Instances per topology. */
+    readonly n: number,
+    /** Units in the rule set. */
     readonly nUnits: number,
   ) {
-    const n = unit.length;
-    this.n = n;
-    // A Y-loss key is Σ 8^unit over the lost instances (removedKey of their counts): sum weights directly.
-    this.#weight = Float64Array.from(unit, (u) => 8 ** u);
-    this.#total = this.#weight.reduce((a, b) => a + b, 0);
+    this.#weight = new Float64Array(n);
     this.#kept = new Float64Array(1 << n);
     this.#req = new Int32Array(1 << n);
     this.#yKeys = new Float64Array(1 << n);
     this.#bKeys = new Float64Array(n);
     this.#subtree = new Float64Array(n);
     this.#cCounts = new Uint8Array(nUnits);
+  }
+
+  /** Sets the unit of each instance (for every following prediction); returns this. */
+  setUnits(unit: readonly number[]): this {
+    this.#unit = unit;
+    // A Y-loss key is Σ 8^unit over the lost instances (removedKey of their counts): sum weights directly.
+    let total = 0;
+    for (let i = 0; i < this.n; i++) {
+      this.#weight[i] = 8 ** unit[i]!;
+      total += this.#weight[i]!;
+    }
+    this.#total = total;
+    return this;
+  }
+
+  get unit(): readonly number[] {
+    return this.#unit;
   }
 
   predict(parent: readonly number[], linkage: readonly Linkage[]): void {
@@ -488,7 +503,7 @@ class Predictor {
     for (let i = 0; i < n; i++) {
       if (linkage[i] === 'C' && parent[i] === -1) {
         fixedMask |= 1 << i;
-        this.#cCounts[this.unit[i]!]!++;
+        this.#cCounts[this.#unit[i]!]!++;
       }
     }
     const full = 1 << n;
@@ -598,6 +613,9 @@ class TopologyView implements Topology {
   }
 }
 
+/** Scratch predictors of {@link makeTopology}, by instance and unit count (never held across calls). */
+const predictors = new Map<number, Predictor>();
+
 /** Builds a topology's predictions (Y losses, B units) from its instances. */
 export function makeTopology(
   unit: number[],
@@ -606,7 +624,12 @@ export function makeTopology(
   notation: string,
   nUnits: number,
 ): Topology {
-  const p = new Predictor(unit, nUnits);
-  p.predict(parent, linkage);
+  const key = unit.length * 1024 + nUnits;
+  let p = predictors.get(key);
+  if (!p) {
+    p = new Predictor(unit.length, nUnits);
+    predictors.set(key, p);
+  }
+  p.setUnits(unit).predict(parent, linkage);
   return p.freeze([], notation);
 }
