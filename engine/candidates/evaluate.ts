@@ -333,7 +333,8 @@ export function evaluateTopologies(
     );
   }
   const chosen = new Int16Array(readings.length);
-  const perComposition: EvaluatedCandidate[] = [];
+  // The best KEEP topologies so far, best first; entries are recycled as better ones push them out.
+  const perComposition: Kept[] = [];
   const seenLoss = new Set<number>();
   const seenCross = new Set<number>();
 
@@ -401,20 +402,14 @@ export function evaluateTopologies(
     const full = perComposition.length >= KEEP;
     if (score >= options.best.score - window && (!full || score > perComposition[KEEP - 1]!.score)) {
       if (score > options.best.score) options.best.score = score;
-      if (full) perComposition.pop();
-      insertSorted(perComposition, {
-        hypothesis: h,
-        interpretation: interp,
-        topology: keep ? keep() : topo,
-        y0,
-        explained: Math.min(1, explained),
-        score,
-        evidence: score - s.prior - topoPrior,
-        readings,
-        chosen: chosen.slice(),
-        keyIonSeen,
-        treeScore: tree.score,
-      });
+      const entry = full ? perComposition.pop()! : newKept(readings.length);
+      entry.score = score;
+      entry.topology = keep ? keep() : topo;
+      entry.explained = Math.min(1, explained);
+      entry.evidence = score - s.prior - topoPrior;
+      entry.keyIonSeen = keyIonSeen;
+      entry.chosen.set(chosen);
+      insertSorted(perComposition, entry);
     }
     return score;
   };
@@ -429,9 +424,23 @@ export function evaluateTopologies(
   } else {
     searchTopologies(compUnits, rules.units, scoreTopology, { maxCLinked: maxC });
   }
-  if (!options.only)
-    topologyRuns.set(readings, { comp: s.comp, fixed, prior: s.prior, candidates: perComposition });
-  return keepBest(perComposition, options.best.score - window);
+  const candidates = perComposition.map(
+    (e): EvaluatedCandidate => ({
+      hypothesis: h,
+      interpretation: interp,
+      topology: e.topology!,
+      y0,
+      explained: e.explained,
+      score: e.score,
+      evidence: e.evidence,
+      readings,
+      chosen: e.chosen,
+      keyIonSeen: e.keyIonSeen,
+      treeScore: tree.score,
+    }),
+  );
+  if (!options.only) topologyRuns.set(readings, { comp: s.comp, fixed, prior: s.prior, candidates });
+  return keepBest(candidates, options.best.score - window);
 }
 
 /** Whether a topology has C-linked residues for every cleavage of a cross-ring reading. */
@@ -451,11 +460,37 @@ const topologyRuns = new WeakMap<
 /** Topologies kept per interpretation. */
 const KEEP = 12;
 
-/** Inserts a candidate into a list kept sorted by descending score. */
-function insertSorted(list: EvaluatedCandidate[], c: EvaluatedCandidate): void {
+/** A topology kept while an interpretation's topologies are scored. */
+interface Kept {
+  score: number;
+  topology: Topology | undefined;
+  explained: number;
+  evidence: number;
+  keyIonSeen: boolean;
+  /** Reading chosen per peak (see {@link EvaluatedCandidate.chosen}). */
+  readonly chosen: Int16Array;
+}
+
+function newKept(readings: number): Kept {
+  return {
+    score: 0,
+    topology: undefined,
+    explained: 0,
+    evidence: 0,
+    keyIonSeen: false,
+    chosen: new Int16Array(readings),
+  };
+}
+
+/** Inserts an entry into a list kept sorted by descending score. */
+function insertSorted(list: Kept[], c: Kept): void {
   let i = list.length;
-  while (i > 0 && list[i - 1]!.score < c.score) i--;
-  list.splice(i, 0, c);
+  list.push(c);
+  while (i > 0 && list[i - 1]!.score < c.score) {
+    list[i] = list[i - 1]!;
+    i--;
+  }
+  list[i] = c;
 }
 
 /** The best few distinct stackings at or above a score. */

@@ -48,7 +48,27 @@ export interface PrecursorOptions {
  * less the neutral it loses first (formate: +HCOO − HCOOH = −H), or +H/−H for multiply charged ions whose
  * fragments are singly charged.
  */
-export function fragmentDelta(ion: IonType, rules: CompiledRuleSet): { counts: Counts; charge: number } {
+export function fragmentDelta(
+  ion: IonType,
+  rules: CompiledRuleSet,
+): { readonly counts: Counts; readonly charge: number } {
+  let byIon = fragmentDeltas.get(rules);
+  if (!byIon) {
+    byIon = new Map();
+    fragmentDeltas.set(rules, byIon);
+  }
+  let d = byIon.get(ion.name);
+  if (!d) {
+    d = computeFragmentDelta(ion, rules);
+    byIon.set(ion.name, d);
+  }
+  return d;
+}
+
+/** {@link fragmentDelta} per rule set and ion type (shared: callers only read them). */
+const fragmentDeltas = new WeakMap<CompiledRuleSet, Map<string, { counts: Counts; charge: number }>>();
+
+function computeFragmentDelta(ion: IonType, rules: CompiledRuleSet): { counts: Counts; charge: number } {
   const counts = Int32Array.from(ion.delta.counts);
   const adduct = rules.adductLosses.get(ion.name);
   if (adduct) for (let e = 0; e < NE; e++) counts[e]! -= adduct.counts[e]!;
@@ -95,6 +115,33 @@ function compositionRange(masses: Float64Array, lo: number, hi: number): [number
   return [a, end];
 }
 
+/** What {@link interpretPrecursor} derives from the rule set alone. */
+interface PrecursorTables {
+  readonly aglFilter: ReturnType<typeof createFormulaFilter>;
+  readonly residueMasses: readonly number[];
+  readonly aglyconeKeys: ReadonlySet<number>;
+}
+
+const precursorTableCache = new WeakMap<CompiledRuleSet, PrecursorTables>();
+
+function precursorTables(rules: CompiledRuleSet): PrecursorTables {
+  let t = precursorTableCache.get(rules);
+  if (!t) {
+    t = {
+      aglFilter: createFormulaFilter({
+        rdbe: { electrons: 'even', min: rules.rules.limits.unknownAglyconeMinRdbe },
+        ratios: 'extended',
+      }),
+      residueMasses: rules.units.filter((u) => u.kind === 'residue').map((u) => u.mass),
+      aglyconeKeys: new Set(rules.aglyconeGroups.map((g) => formulaKey(g.counts, g.cation ? 1 : 0))),
+    };
+    precursorTableCache.set(rules, t);
+  }
+  return t;
+}
+
+const NO_DELTA = { counts: new Int32Array(NE), charge: 1 } as const;
+
 /**
  * Every precursor ion formula that an aglycone (library, or unknown with a Y0 peak in the spectrum) plus a
  * glycan composition of the rule set explains within the precursor tolerance, grouped by formula.
@@ -112,17 +159,12 @@ export function interpretPrecursor(
     charge === undefined ? Math.abs(t.charge) === 1 : Math.abs(t.charge) === Math.abs(charge),
   );
   const masses = rules.compositionMasses;
-  const aglFilter = createFormulaFilter({
-    rdbe: { electrons: 'even', min: rules.rules.limits.unknownAglyconeMinRdbe },
-    ratios: 'extended',
-  });
-  const residueMasses = rules.units.filter((u) => u.kind === 'residue').map((u) => u.mass);
-  const aglyconeKeys = new Set(rules.aglyconeGroups.map((g) => formulaKey(g.counts, g.cation ? 1 : 0)));
+  const { aglFilter, residueMasses, aglyconeKeys } = precursorTables(rules);
 
   // Whether the interpretation's aglycone is evidenced: its Y0 (or radical Y0) ion, or a cross-ring ion of a
   // C-linkable residue on it. Readings without either could never be annotated, so they are not pursued.
   const keyIon = (ion: IonType, aglCounts: Counts, cation: boolean, comp: Composition): boolean => {
-    const frag = cation ? { counts: new Int32Array(NE), charge: 1 } : fragmentDelta(ion, rules);
+    const frag = cation ? NO_DELTA : fragmentDelta(ion, rules);
     const z = frag.charge;
     const y0 = countsMass(aglCounts) + countsMass(frag.counts);
     const at = (atoms: number) => hasPeak(spectrum, (atoms - z * ELECTRON_MASS) / Math.abs(z), options);

@@ -108,7 +108,7 @@ const SYMBOL_COUNT_TEXT = ELEMENT_SYMBOLS.map((sym) =>
  * Formats a formula in Hill order with a charge suffix: `C15H11O6+`, `C21H19O11-`; charges above one are
  * written sign first (`C6H14O6+2`) because `C6H14O62+` would read as O62.
  */
-export function formatFormula(f: Formula): string {
+export function formatFormula(f: { readonly counts: ArrayLike<number>; readonly charge: number }): string {
   const order = f.counts[C] !== 0 ? HILL_WITH_C : HILL_NO_C;
   let out = '';
   for (let k = 0; k < order.length; k++) {

@@ -65,7 +65,7 @@ export function nonNegative(c: ArrayLike<number>): boolean {
 
 /** Hill-order string of counts with a charge. */
 export function countsString(c: ArrayLike<number>, charge = 0): string {
-  return formatFormula({ counts: Array.from(c), charge });
+  return formatFormula({ counts: c, charge });
 }
 
 /** Ring and double-bond equivalents of counts (C − (H+Na+K+Cl)/2 + (N+P)/2 + 1). */

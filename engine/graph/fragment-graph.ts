@@ -1,6 +1,7 @@
 import { ELECTRON_MASS } from '../chem/elements.js';
 import type { PrecursorHypothesis } from '../candidates/precursor.js';
 import { fragmentDelta } from '../candidates/precursor.js';
+import { LruCache } from '../candidates/cache.js';
 import type { CompiledRuleSet } from '../rules/compile.js';
 import { type CleanSpectrum, tolDa } from '../spectrum/clean.js';
 import { buildGraph, type FragGraph } from '../tree/graph.js';
@@ -140,18 +141,12 @@ function comboLists(rules: CompiledRuleSet, polarity: 'positive' | 'negative'): 
   return lists;
 }
 
-const subCache = new Map<string, Uint8Array[]>();
+/** Sub-multisets by composition (a few KB per composition at most). */
+const subCache = new LruCache<string, Uint8Array[]>(4_000);
 
 /** {@link subMultisets}, memoised by the vector (compositions repeat across spectra). */
 function subMultisetsCached(units: Uint8Array): Uint8Array[] {
-  const key = units.join(',');
-  let list = subCache.get(key);
-  if (!list) {
-    list = subMultisets(units);
-    if (subCache.size > 2_000) subCache.clear();
-    subCache.set(key, list);
-  }
-  return list;
+  return subCache.getOrSet(units.join(','), () => subMultisets(units));
 }
 
 /** Sub-multisets of a unit count vector, the empty one first. */

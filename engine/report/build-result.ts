@@ -125,7 +125,10 @@ export function buildAnnotatedResult(
   for (let i = 0; i < ranked.length; i++) {
     const r = ranked[i]!;
     // Past the limit, only user-supplied candidates are still reported (with their true rank).
-    if (candidates.length >= limit && !user.userKeys.has(candidateKey(r.c))) continue;
+    if (candidates.length >= limit) {
+      if (user.userKeys.size === 0) break;
+      if (!user.userKeys.has(candidateKey(r.c))) continue;
+    }
     const c = r.c;
     const { primary, ion, alternatives, note } = chooseName(r, spectrum);
     if (note && i === 0) cautions.push(note);
