@@ -141,12 +141,46 @@ function comboLists(rules: CompiledRuleSet, polarity: 'positive' | 'negative'): 
   return lists;
 }
 
-/** Sub-multisets by composition (a few KB per composition at most). */
-const subCache = new LruCache<string, Uint8Array[]>(4_000);
+/** The sub-multisets of a composition with the atoms and mass each one weighs. */
+interface SubMultisets {
+  readonly list: Uint8Array[];
+  /** Atoms of sub-multiset i at `[i * NE, (i + 1) * NE)`. */
+  readonly atoms: Int32Array;
+  readonly mass: Float64Array;
+  /** Units in each. */
+  readonly size: Uint8Array;
+  /** 1 when what the composition keeps after losing it is C-linkable residues only (cross-ring ions). */
+  readonly keepsCOnly: Uint8Array;
+}
 
-/** {@link subMultisets}, memoised by the vector (compositions repeat across spectra). */
-function subMultisetsCached(units: Uint8Array): Uint8Array[] {
-  return subCache.getOrSet(units.join(','), () => subMultisets(units));
+/** Sub-multisets by rule set and composition (a few KB per composition at most). */
+const subCache = new WeakMap<CompiledRuleSet, LruCache<string, SubMultisets>>();
+
+/** {@link subMultisets} with atoms and masses, memoised by the vector (compositions repeat across spectra). */
+function subMultisetsCached(units: Uint8Array, rules: CompiledRuleSet): SubMultisets {
+  let cache = subCache.get(rules);
+  if (!cache) {
+    cache = new LruCache(4_000);
+    subCache.set(rules, cache);
+  }
+  return cache.getOrSet(units.join(','), () => {
+    const list = subMultisets(units);
+    const atoms = new Int32Array(list.length * NE);
+    const mass = new Float64Array(list.length);
+    const size = new Uint8Array(list.length);
+    const keepsCOnly = new Uint8Array(list.length);
+    list.forEach((removed, i) => {
+      keepsCOnly[i] = keepsOnlyCLinkable(units, removed, rules.units) ? 1 : 0;
+      const lost = atoms.subarray(i * NE, (i + 1) * NE);
+      for (let u = 0; u < removed.length; u++) {
+        if (!removed[u]) continue;
+        size[i]! += removed[u]!;
+        for (let e = 0; e < NE; e++) lost[e]! += removed[u]! * rules.units[u]!.counts[e]!;
+      }
+      mass[i] = countsMass(lost);
+    });
+    return { list, atoms, mass, size, keepsCOnly };
+  });
 }
 
 /** Sub-multisets of a unit count vector, the empty one first. */
@@ -294,7 +328,6 @@ export function matchHypothesis(
   // Multi-loss combinations are tried on the aglycone ion (Y0) and the precursor only, radicals on Y0 only:
   // phenolic aglycones shed H2O/CO/CO2 in series, intermediate Y ions seldom do.
   const tmp = new Int32Array(NE);
-  const lost = new Int32Array(NE);
   const peakMz = spectrum.mz;
   // Multi-loss combinations on ladder ends only; cross-ring ones when a residue may be C-linked.
   const lists = comboLists(rules, options.polarity);
@@ -313,28 +346,26 @@ export function matchHypothesis(
   let matches = new Int32Array(64);
   const stride = nPeaks + 1;
   const radicalOk = options.polarity === 'negative';
+  const coreMasses = cores.map((k) => countsMass(k.counts));
   comps.forEach((compUnits, ci) => {
     const hasC = compUnits.some((n, u) => n > 0 && units[u]!.linkages.includes('C'));
     const total = sum(compUnits);
-    for (const removed of subMultisetsCached(compUnits)) {
-      lost.fill(0);
-      let removedCount = 0;
-      for (let u = 0; u < nU; u++) {
-        if (!removed[u]) continue;
-        removedCount += removed[u]!;
-        for (let e = 0; e < NE; e++) lost[e]! += removed[u]! * units[u]!.counts[e]!;
-      }
-      const lostMass = countsMass(lost);
+    const subs = subMultisetsCached(compUnits, rules);
+    for (let si = 0; si < subs.list.length; si++) {
+      const removed = subs.list[si]!;
+      const lostAt = si * NE; // this sub-multiset's atoms in subs.atoms
+      const removedCount = subs.size[si]!;
+      const lostMass = subs.mass[si]!;
       const ladderEnd = removedCount === total || removedCount === 0;
       // Radical Y ions (H• lost too) only on the bare aglycone, in negative mode.
       const maxRadical = radicalOk && removedCount === total ? 1 : 0;
       for (let coreIdx = 0; coreIdx < cores.length; coreIdx++) {
         const core = cores[coreIdx]!;
         const z = core.charge;
-        const coreMass = countsMass(core.counts);
+        const coreMass = coreMasses[coreIdx]!;
         // Cross-ring ions come from the precursor or from fragments that keep only C-linkable residues
         // (the C-glycosidic core after its O-linked units are gone).
-        const crossHere = hasC && (removedCount === 0 || keepsOnlyCLinkable(compUnits, removed, units));
+        const crossHere = hasC && (removedCount === 0 || subs.keepsCOnly[si] === 1);
         const list = ladderEnd ? (crossHere ? lists.all : lists.ends) : crossHere ? lists.cross : lists.plain;
         if (list.ids.length === 0) continue;
         // Peaks that some combination could explain: atoms in [rest − heaviest loss − H, rest], ± tolerance.
@@ -401,7 +432,7 @@ export function matchHypothesis(
           const combo = rules.lossCombos[k]!;
           let ok = true;
           for (let e = 0; e < NE; e++) {
-            tmp[e] = core.counts[e]! - lost[e]! - combo.counts[e]! - (e === 1 ? radical : 0);
+            tmp[e] = core.counts[e]! - subs.atoms[lostAt + e]! - combo.counts[e]! - (e === 1 ? radical : 0);
             if (tmp[e]! < 0) ok = false;
           }
           if (!ok) continue;
@@ -417,7 +448,7 @@ export function matchHypothesis(
     }
     if (options.polarity === 'positive') {
       // Oxonium ions of one or two residues and acylium ions, [units + H]+; oxonium ions also − H2O.
-      for (const part of subMultisetsCached(compUnits)) {
+      for (const part of subMultisetsCached(compUnits, rules).list) {
         const n = sum(part);
         if (n === 0 || n > 2) continue;
         let cation = true;
