@@ -335,8 +335,38 @@ export function evaluateTopologies(
   const chosen = new Int16Array(readings.length);
   // The best KEEP topologies so far, best first; entries are recycled as better ones push them out.
   const perComposition: Kept[] = [];
-  const seenLoss = new Set<number>();
   const seenCross = new Set<number>();
+  // The distinct keys the readings ask about, so each topology is probed once per key, not per reading:
+  // Y-loss keys (kinds 0–2) and unit keys of oxonium / acylium ions (kind 3), indexed per reading entry.
+  const yKeys: number[] = [];
+  const bKeys: number[] = [];
+  const yIndex = new Map<number, number>();
+  const bIndex = new Map<number, number>();
+  const entryStart = new Int32Array(readings.length + 1);
+  let entries = 0;
+  for (let r = 0; r < readings.length; r++) {
+    entryStart[r] = entries;
+    entries += readings[r]!.list.length;
+  }
+  entryStart[readings.length] = entries;
+  const entryKey = new Int32Array(entries);
+  for (let r = 0; r < readings.length; r++) {
+    readings[r]!.list.forEach((x, k) => {
+      const [keys, index] = x.kind === 3 ? [bKeys, bIndex] : [yKeys, yIndex];
+      let i = index.get(x.key);
+      if (i === undefined) {
+        i = keys.length;
+        keys.push(x.key);
+        index.set(x.key, i);
+      }
+      entryKey[entryStart[r]! + k] = i;
+    });
+  }
+  const yAdmitted = new Uint8Array(yKeys.length);
+  const bAdmitted = new Uint8Array(bKeys.length);
+  // Y-loss keys read as Y ions (kind 0) by this topology: a stamp per key marks it seen in this call.
+  const seenStamp = new Int32Array(yKeys.length);
+  let stamp = 0;
 
   const scoreTopology = (topo: Topology, keep?: () => Topology): number => {
     let explained = precursorShare;
@@ -344,24 +374,33 @@ export function evaluateTopologies(
     let weighted = precursorShare;
     let crossIntensity = 0;
     let y0Seen = false;
-    seenLoss.clear();
+    // Distinct Y ions seen other than the precursor (key 0) and Y0.
+    let seenY = 0;
+    stamp++;
     seenCross.clear();
+    for (let i = 0; i < yKeys.length; i++) yAdmitted[i] = topo.yLosses.has(yKeys[i]!) ? 1 : 0;
+    for (let i = 0; i < bKeys.length; i++) bAdmitted[i] = topo.bUnits.has(bKeys[i]!) ? 1 : 0;
     for (let r = 0; r < readings.length; r++) {
       const { list, intensity } = readings[r]!;
+      const at = entryStart[r]!;
       chosen[r] = -1;
       for (let k = 0; k < list.length; k++) {
         const x = list[k]!;
+        const ki = entryKey[at + k]!;
         const ok =
           x.kind === 3
-            ? topo.bUnits.has(x.key)
-            : topo.yLosses.has(x.key) && (x.kind !== 2 || cleavable(topo, x.cleaved!));
+            ? bAdmitted[ki] === 1
+            : yAdmitted[ki] === 1 && (x.kind !== 2 || cleavable(topo, x.cleaved!));
         if (!ok) continue;
         chosen[r] = k;
         explained += intensity;
         weighted += intensity * x.weight;
         if (x.kind === 0) {
-          seenLoss.add(x.key);
           if (x.key === topo.y0Loss) y0Seen = true;
+          else if (x.key !== 0 && seenStamp[ki] !== stamp) {
+            seenStamp[ki] = stamp;
+            seenY++;
+          }
         } else if (x.kind === 2) {
           crossIntensity += intensity;
           const combo = rules.lossCombos[x.deriv!.combo]!;
@@ -373,7 +412,6 @@ export function evaluateTopologies(
     }
     // Strong ions the topology predicts but the spectrum lacks.
     let penalty = 0;
-    let missingY = 0;
     // Y0 (the aglycone with its C-linked residues) is expected whenever something can be lost to reach it.
     if (topo.y0Loss !== 0 && !y0Seen) penalty += 2 * w.missingIon;
     if (topo.cLinked) {
@@ -385,11 +423,8 @@ export function evaluateTopologies(
         }
       }
     }
-    const yl = topo.yLosses;
-    for (let k = 0; k < yl.size; k++) {
-      const key = yl.keys[k]!;
-      if (key !== 0 && key !== topo.y0Loss && !seenLoss.has(key)) missingY++;
-    }
+    // Every topology predicts the precursor (key 0) and Y0; the other Y ions it predicts are missing unless seen.
+    const missingY = topo.yLosses.size - 1 - (topo.y0Loss !== 0 ? 1 : 0) - seenY;
     penalty += 0.25 * w.missingIon * missingY;
     const keyIonSeen = topo.cLinked ? crossIntensity > 0 || y0Seen : y0Seen;
     let topoPrior = 0;
