@@ -13,7 +13,7 @@ import { type Counts, countsMass, countsRdbe, formulaKey, isSubCounts, NE } from
  * (0 the precursor, 1 the precursor after its adduct loss or charge reduction).
  */
 export interface Derivation {
-  /** Index of the composition among the hypothesis' distinct compositions. */
+  /** Index of the composition among the hypothesis' distinct compositions (a node lists its derivations by ascending `comp`). */
   readonly comp: number;
   readonly removed: Uint8Array;
   readonly combo: number;
@@ -530,7 +530,12 @@ export function finishGraph(
   }
 
   // Topological order: heavier ions (by atoms) first; the root stays first.
-  const rest = nodes.slice(1).sort((a, b) => countsMass(b.counts) - countsMass(a.counts));
+  const atomMass = new Float64Array(nodes.length);
+  for (let i = 1; i < nodes.length; i++) atomMass[i] = countsMass(nodes[i]!.counts);
+  const byMass = Array.from({ length: nodes.length - 1 }, (_, i) => i + 1).sort(
+    (a, b) => atomMass[b]! - atomMass[a]!,
+  );
+  const rest = byMass.map((i) => nodes[i]!);
   const ordered = [nodes[0]!, ...rest];
   const colourOf = new Map<number, number>();
   const colour = ordered.map((n, i) => {
@@ -608,66 +613,90 @@ export function edgePrior(
     if (!best || prior > best.prior) best = { prior, kind, from, to };
   };
   const nCombos = rules.lossCombos.length;
-  for (const dp of parent.derivs) {
-    for (const dc of child.derivs) {
-      if (dp.comp !== dc.comp) continue;
-      if (dc.core < dp.core || (dc.core !== dp.core && !fromRoot)) continue;
-      if (dc.radical < dp.radical) continue;
-      if (!rules.comboNested[dp.combo * nCombos + dc.combo]) continue;
-      let unitsLost = 0;
-      let residuesLost = 0;
-      let nested = true;
-      for (let u = 0; u < dc.removed.length; u++) {
-        const d = dc.removed[u]! - dp.removed[u]!;
-        if (d < 0) {
-          nested = false;
-          break;
-        }
-        unitsLost += d;
-        if (rules.units[u]!.kind === 'residue') residuesLost += d;
-      }
-      if (!nested) continue;
-      const cp = rules.lossCombos[dp.combo]!;
-      const cc = rules.lossCombos[dc.combo]!;
-      const smallLost = cc.size - cp.size;
-      const crossLost =
-        (cc.crossRing >= 0 ? 1 : 0) + (cc.crossRing2 >= 0 ? 1 : 0) >
-        (cp.crossRing >= 0 ? 1 : 0) + (cp.crossRing2 >= 0 ? 1 : 0);
-      const adductLost = dc.core !== dp.core;
-      const radicalLost = dc.radical !== dp.radical;
-      if (unitsLost === 0 && smallLost === 0 && !adductLost && !radicalLost) continue;
-      let prior: number;
-      let kind: LossKind;
-      if (unitsLost > 0) {
-        kind = 'glycan';
-        const acylsLost = unitsLost - residuesLost;
-        prior =
-          unitsLost === 1
-            ? w.knownLoss
-            : acylsLost === 1 && residuesLost === 1
-              ? w.knownLoss - 0.5
-              : w.knownLoss - 1 - 0.5 * (unitsLost - 2);
-        // A sugar and a small or cross-ring loss in one step is less likely than the two steps in turn.
-        prior -= 1 * smallLost;
-      } else if (crossLost) {
-        kind = 'cross-ring';
-        prior = w.knownLoss - 0.5 - 0.5 * (smallLost - 1);
-      } else if (smallLost > 0) {
-        kind = 'small';
-        prior = w.smallLoss - 0.5 * (smallLost - 1);
-      } else if (adductLost) {
-        kind = 'adduct';
-        prior = w.knownLoss;
-      } else {
-        // H• alone from an even-electron fragment: radical aglycone ions come from the precursor's homolytic
-        // glycosidic cleavage (Hvattum & Ekeberg 2003), so this reading is a weak one.
-        kind = 'small';
-        prior = w.smallLoss - 1;
-      }
-      if (adductLost && kind !== 'adduct') prior -= 0.5;
-      if (radicalLost && kind !== 'adduct') prior -= 0.3;
-      consider(prior, kind, dp, dc);
+  // Derivations are listed by composition (matchHypothesis adds them composition by composition): only
+  // those of one composition pair up, so walk the two lists group by group.
+  const pd = parent.derivs;
+  const cd = child.derivs;
+  let i = 0;
+  let j = 0;
+  while (i < pd.length && j < cd.length) {
+    const comp = pd[i]!.comp;
+    if (comp < cd[j]!.comp) {
+      i++;
+      continue;
     }
+    if (cd[j]!.comp < comp) {
+      j++;
+      continue;
+    }
+    let iEnd = i;
+    while (iEnd < pd.length && pd[iEnd]!.comp === comp) iEnd++;
+    let jEnd = j;
+    while (jEnd < cd.length && cd[jEnd]!.comp === comp) jEnd++;
+    for (let a = i; a < iEnd; a++) {
+      const dp = pd[a]!;
+      for (let b = j; b < jEnd; b++) {
+        const dc = cd[b]!;
+        if (dc.core < dp.core || (dc.core !== dp.core && !fromRoot)) continue;
+        if (dc.radical < dp.radical) continue;
+        if (!rules.comboNested[dp.combo * nCombos + dc.combo]) continue;
+        let unitsLost = 0;
+        let residuesLost = 0;
+        let nested = true;
+        for (let u = 0; u < dc.removed.length; u++) {
+          const d = dc.removed[u]! - dp.removed[u]!;
+          if (d < 0) {
+            nested = false;
+            break;
+          }
+          unitsLost += d;
+          residuesLost += d * rules.isResidue[u]!;
+        }
+        if (!nested) continue;
+        const cp = rules.lossCombos[dp.combo]!;
+        const cc = rules.lossCombos[dc.combo]!;
+        const smallLost = cc.size - cp.size;
+        const crossLost =
+          (cc.crossRing >= 0 ? 1 : 0) + (cc.crossRing2 >= 0 ? 1 : 0) >
+          (cp.crossRing >= 0 ? 1 : 0) + (cp.crossRing2 >= 0 ? 1 : 0);
+        const adductLost = dc.core !== dp.core;
+        const radicalLost = dc.radical !== dp.radical;
+        if (unitsLost === 0 && smallLost === 0 && !adductLost && !radicalLost) continue;
+        let prior: number;
+        let kind: LossKind;
+        if (unitsLost > 0) {
+          kind = 'glycan';
+          const acylsLost = unitsLost - residuesLost;
+          prior =
+            unitsLost === 1
+              ? w.knownLoss
+              : acylsLost === 1 && residuesLost === 1
+                ? w.knownLoss - 0.5
+                : w.knownLoss - 1 - 0.5 * (unitsLost - 2);
+          // A sugar and a small or cross-ring loss in one step is less likely than the two steps in turn.
+          prior -= 1 * smallLost;
+        } else if (crossLost) {
+          kind = 'cross-ring';
+          prior = w.knownLoss - 0.5 - 0.5 * (smallLost - 1);
+        } else if (smallLost > 0) {
+          kind = 'small';
+          prior = w.smallLoss - 0.5 * (smallLost - 1);
+        } else if (adductLost) {
+          kind = 'adduct';
+          prior = w.knownLoss;
+        } else {
+          // H• alone from an even-electron fragment: radical aglycone ions come from the precursor's homolytic
+          // glycosidic cleavage (Hvattum & Ekeberg 2003), so this reading is a weak one.
+          kind = 'small';
+          prior = w.smallLoss - 1;
+        }
+        if (adductLost && kind !== 'adduct') prior -= 0.5;
+        if (radicalLost && kind !== 'adduct') prior -= 0.3;
+        consider(prior, kind, dp, dc);
+      }
+    }
+    i = iEnd;
+    j = jEnd;
   }
   if (fromRoot && child.cations.length > 0) consider(w.smallLoss, 'cation');
   if (best) return best;

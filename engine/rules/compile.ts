@@ -71,6 +71,8 @@ export interface AglyconeGroup {
 export interface CompiledRuleSet {
   readonly rules: RuleSet;
   readonly units: readonly Unit[];
+  /** 1 for each unit that is a residue, 0 for an acyl group (the hot paths' view of `units[u].kind`). */
+  readonly isResidue: Uint8Array;
   /** Prior score per occurrence of each unit. */
   readonly unitPriors: readonly number[];
   readonly residueCount: number;
@@ -248,6 +250,7 @@ export function compileRuleSet(rules: RuleSet): CompiledRuleSet {
   return {
     rules,
     units,
+    isResidue: Uint8Array.from(units, (u) => (u.kind === 'residue' ? 1 : 0)),
     unitPriors: [...rules.residues.map((r) => r.prior), ...rules.acyls.map((a) => a.prior)],
     residueCount,
     compositions,
