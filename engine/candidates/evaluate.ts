@@ -418,9 +418,8 @@ export function evaluateTopologies(
       if (crossIntensity === 0) penalty += 2 * w.missingIon;
       for (let i = 0; i < topo.unit.length; i++) {
         if (topo.linkage[i] !== 'C') continue;
-        for (const x of rules.diagnosticCrossRing.get(topo.unit[i]!) ?? []) {
-          if (!seenCross.has(x)) penalty += 0.5 * w.missingIon;
-        }
+        const diagnostic = rules.diagnosticCrossRing.get(topo.unit[i]!);
+        if (diagnostic) for (const x of diagnostic) if (!seenCross.has(x)) penalty += 0.5 * w.missingIon;
       }
     }
     // Every topology predicts the precursor (key 0) and Y0; the other Y ions it predicts are missing unless seen.

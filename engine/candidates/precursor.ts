@@ -102,14 +102,24 @@ function hasPeak(s: CleanSpectrum, mz: number, o: PrecursorOptions): boolean {
   return peakAt(s, mz, o) >= 0;
 }
 
-function compositionRange(masses: Float64Array, lo: number, hi: number): [number, number] {
-  let a = 0;
-  let b = masses.length;
-  while (a < b) {
-    const m = (a + b) >> 1;
-    if (masses[m]! < lo) a = m + 1;
-    else b = m;
+/** For each whole dalton d up to the heaviest mass, the index of the first mass ≥ d (masses ascending). */
+function massBins(masses: Float64Array): Int32Array {
+  const top = masses.length ? Math.ceil(masses[masses.length - 1]!) + 1 : 1;
+  const bins = new Int32Array(top + 1);
+  let i = 0;
+  for (let d = 0; d <= top; d++) {
+    while (i < masses.length && masses[i]! < d) i++;
+    bins[d] = i;
   }
+  return bins;
+}
+
+/** The index range of the (ascending) masses within [lo, hi], found from the whole-dalton bins. */
+function compositionRange(masses: Float64Array, bins: Int32Array, lo: number, hi: number): [number, number] {
+  const d = Math.floor(lo);
+  if (d >= bins.length) return [masses.length, masses.length];
+  let a = d < 0 ? 0 : bins[d]!;
+  while (a < masses.length && masses[a]! < lo) a++;
   let end = a;
   while (end < masses.length && masses[end]! <= hi) end++;
   return [a, end];
@@ -120,6 +130,10 @@ interface PrecursorTables {
   readonly aglFilter: ReturnType<typeof createFormulaFilter>;
   readonly residueMasses: readonly number[];
   readonly aglyconeKeys: ReadonlySet<number>;
+  /** Cross-ring losses (indices) of residues that may be C-linked. */
+  readonly crossOnC: readonly number[];
+  /** First composition (by mass) of each whole-dalton bin: compositions from `massIndex[⌊m⌋]` have mass ≥ ⌊m⌋. */
+  readonly massIndex: Int32Array;
 }
 
 const precursorTableCache = new WeakMap<CompiledRuleSet, PrecursorTables>();
@@ -134,6 +148,8 @@ function precursorTables(rules: CompiledRuleSet): PrecursorTables {
       }),
       residueMasses: rules.units.filter((u) => u.kind === 'residue').map((u) => u.mass),
       aglyconeKeys: new Set(rules.aglyconeGroups.map((g) => formulaKey(g.counts, g.cation ? 1 : 0))),
+      crossOnC: rules.crossRingResidue.flatMap((r, x) => (rules.units[r]!.linkages.includes('C') ? [x] : [])),
+      massIndex: massBins(rules.compositionMasses),
     };
     precursorTableCache.set(rules, t);
   }
@@ -159,7 +175,7 @@ export function interpretPrecursor(
     charge === undefined ? Math.abs(t.charge) === 1 : Math.abs(t.charge) === Math.abs(charge),
   );
   const masses = rules.compositionMasses;
-  const { aglFilter, residueMasses, aglyconeKeys } = precursorTables(rules);
+  const { aglFilter, residueMasses, aglyconeKeys, crossOnC, massIndex } = precursorTables(rules);
 
   // Whether the interpretation's aglycone is evidenced: its Y0 (or radical Y0) ion, or a cross-ring ion of a
   // C-linkable residue on it. Readings without either could never be annotated, so they are not pursued.
@@ -170,9 +186,9 @@ export function interpretPrecursor(
     const at = (atoms: number) => hasPeak(spectrum, (atoms - z * ELECTRON_MASS) / Math.abs(z), options);
     if (at(y0)) return true;
     if (polarity === 'negative' && at(y0 - H_MASS)) return true;
-    for (let x = 0; x < rules.crossRingResidue.length; x++) {
+    for (const x of crossOnC) {
       const r = rules.crossRingResidue[x]!;
-      if (comp.units[r]! < 1 || !rules.units[r]!.linkages.includes('C')) continue;
+      if (comp.units[r]! < 1) continue;
       const ion1 = y0 + rules.units[r]!.mass - rules.crossRingMasses[x]!;
       if (at(ion1) || at(ion1 - WATER)) return true;
     }
@@ -217,7 +233,7 @@ export function interpretPrecursor(
     const flavylium = ion.name === '[M]+';
     for (const g of rules.aglyconeGroups) {
       if (g.cation !== flavylium) continue;
-      const [a, b] = compositionRange(masses, mNeutral - g.mass - tol, mNeutral - g.mass + tol);
+      const [a, b] = compositionRange(masses, massIndex, mNeutral - g.mass - tol, mNeutral - g.mass + tol);
       for (let k = a; k < b; k++) add(ion, { kind: 'library', group: g }, k, g.counts);
     }
   }
@@ -240,7 +256,12 @@ export function interpretPrecursor(
         // A radical [Y0−H]−• is one H lighter than Y0.
         const aglMass = fragAtoms - fragDeltaMass + radical * H_MASS;
         const ftol = tolDa(spectrum.mz[i]!, options.fragmentPpm, options.floorDa) + tol;
-        const [a, b] = compositionRange(masses, mNeutral - aglMass - ftol, mNeutral - aglMass + ftol);
+        const [a, b] = compositionRange(
+          masses,
+          massIndex,
+          mNeutral - aglMass - ftol,
+          mNeutral - aglMass + ftol,
+        );
         for (let k = a; k < b; k++) {
           if (seen.has(k)) continue;
           seen.add(k);

@@ -389,6 +389,7 @@ class ShapeHasher {
   readonly #lo: Uint32Array;
   readonly #hi: Uint32Array;
   readonly #order: Int32Array;
+  readonly #depth: Int32Array;
 
   constructor(
     unit: readonly number[],
@@ -398,6 +399,7 @@ class ShapeHasher {
     this.#lo = new Uint32Array(n);
     this.#hi = new Uint32Array(n);
     this.#order = new Int32Array(n);
+    this.#depth = new Int32Array(n);
   }
 
   hash(parent: readonly number[], linkage: readonly Linkage[]): number {
@@ -406,13 +408,14 @@ class ShapeHasher {
     const hi = this.#hi;
     const order = this.#order;
     // Deepest instances first, so each child is finished before its parent.
-    const depth = (i: number) => {
+    const depth = this.#depth;
+    for (let i = 0; i < n; i++) {
       let d = 0;
       for (let j = parent[i]!; j >= 0; j = parent[j]!) d++;
-      return d;
-    };
+      depth[i] = d;
+    }
     let m = 0;
-    for (let d = n; d >= 0; d--) for (let i = 0; i < n; i++) if (depth(i) === d) order[m++] = i;
+    for (let d = n; d >= 0; d--) for (let i = 0; i < n; i++) if (depth[i] === d) order[m++] = i;
     lo.fill(0);
     hi.fill(0);
     let rootLo = 0;
