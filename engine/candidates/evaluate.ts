@@ -37,14 +37,15 @@ export interface EvaluatedCandidate {
 /** One way to read a peak under a composition. */
 export interface Reading {
   readonly node: FragNode;
-  readonly deriv?: Derivation;
-  readonly cation?: CationDerivation;
+  /** The rule derivation (Y-type readings) or oxonium / acylium explanation (kind 3); the other is undefined. */
+  readonly deriv: Derivation | undefined;
+  readonly cation: CationDerivation | undefined;
   /** Y-loss key (Y ions, cross-ring ions) or unit key (oxonium / acylium ions). */
   readonly key: number;
   /** 0 a Y ion itself, 1 a Y ion after small losses, 2 a cross-ring ion, 3 an oxonium or acylium ion. */
   readonly kind: 0 | 1 | 2 | 3;
   /** Cross-ring ions: the residue (unit index) of each cleavage; they must be C-linked in the topology. */
-  readonly cleaved?: readonly number[];
+  readonly cleaved: readonly number[] | undefined;
   readonly weight: number;
 }
 
@@ -253,6 +254,22 @@ export function screenInterpretations(
   return out;
 }
 
+const cleavedCache = new WeakMap<CompiledRuleSet, (readonly number[] | undefined)[]>();
+
+/** Per loss combination, the residue (unit index) of each cross-ring cleavage it makes; undefined for none. */
+function cleavedResidues(rules: CompiledRuleSet): (readonly number[] | undefined)[] {
+  let list = cleavedCache.get(rules);
+  if (!list) {
+    list = rules.lossCombos.map((combo) =>
+      combo.crossRing < 0
+        ? undefined
+        : [combo.crossRing, combo.crossRing2].filter((x) => x >= 0).map((x) => rules.crossRingResidue[x]!),
+    );
+    cleavedCache.set(rules, list);
+  }
+  return list;
+}
+
 function peakReadings(
   byPeak: Map<number, FragNode[]>,
   ci: number,
@@ -261,6 +278,7 @@ function peakReadings(
   rules: CompiledRuleSet,
 ): PeakReadings[] {
   const readings: PeakReadings[] = [];
+  const cleavedOf = cleavedResidues(rules);
   for (const [peak, nodes] of byPeak) {
     const list: Reading[] = [];
     for (const n of nodes) {
@@ -268,21 +286,27 @@ function peakReadings(
         if (d.comp !== ci || !cores[d.core]) continue;
         const combo = rules.lossCombos[d.combo]!;
         const kind = combo.crossRing >= 0 ? 2 : combo.size === 0 ? 0 : 1;
-        const cleaved =
-          kind === 2
-            ? [combo.crossRing, combo.crossRing2].filter((x) => x >= 0).map((x) => rules.crossRingResidue[x]!)
-            : undefined;
         list.push({
           node: n,
           deriv: d,
+          cation: undefined,
           key: removedKey(d.removed),
           kind,
+          cleaved: kind === 2 ? cleavedOf[d.combo] : undefined,
           weight: kind === 2 ? 1 : 0.7 ** combo.size,
-          ...(cleaved ? { cleaved } : {}),
         });
       }
       for (const c of n.cations) {
-        if (c.comp === ci) list.push({ node: n, cation: c, key: removedKey(c.units), kind: 3, weight: 0.8 });
+        if (c.comp === ci)
+          list.push({
+            node: n,
+            deriv: undefined,
+            cation: c,
+            key: removedKey(c.units),
+            kind: 3,
+            cleaved: undefined,
+            weight: 0.8,
+          });
       }
     }
     if (list.length) {

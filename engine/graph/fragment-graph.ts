@@ -608,10 +608,11 @@ export function edgePrior(
 ): EdgeReading | undefined {
   if (child.charge !== parent.charge && !(fromRoot && Math.abs(parent.charge) > 1)) return undefined;
   if (!isSubCounts(child.counts, parent.counts)) return undefined;
-  let best: EdgeReading | undefined;
-  const consider = (prior: number, kind: LossKind, from?: Derivation, to?: Derivation) => {
-    if (!best || prior > best.prior) best = { prior, kind, from, to };
-  };
+  // The best reading so far (the first of equal priors wins).
+  let bestKind: LossKind | undefined;
+  let bestPrior = Number.NEGATIVE_INFINITY;
+  let bestFrom: Derivation | undefined;
+  let bestTo: Derivation | undefined;
   const nCombos = rules.lossCombos.length;
   // Derivations are listed by composition (matchHypothesis adds them composition by composition): only
   // those of one composition pair up, so walk the two lists group by group.
@@ -692,16 +693,26 @@ export function edgePrior(
         }
         if (adductLost && kind !== 'adduct') prior -= 0.5;
         if (radicalLost && kind !== 'adduct') prior -= 0.3;
-        consider(prior, kind, dp, dc);
+        if (bestKind === undefined || prior > bestPrior) {
+          bestKind = kind;
+          bestPrior = prior;
+          bestFrom = dp;
+          bestTo = dc;
+        }
       }
     }
     i = iEnd;
     j = jEnd;
   }
-  if (fromRoot && child.cations.length > 0) consider(w.smallLoss, 'cation');
-  if (best) return best;
+  if (fromRoot && child.cations.length > 0 && (bestKind === undefined || w.smallLoss > bestPrior)) {
+    bestKind = 'cation';
+    bestPrior = w.smallLoss;
+    bestFrom = undefined;
+    bestTo = undefined;
+  }
+  if (bestKind !== undefined) return { prior: bestPrior, kind: bestKind, from: bestFrom, to: bestTo };
   // No rule reading: judge the loss formula itself.
-  const loss = new Int32Array(NE);
+  const loss = lossScratch;
   for (let e = 0; e < NE; e++) loss[e] = parent.counts[e]! - child.counts[e]!;
   const mass = countsMass(loss);
   const r = countsRdbe(loss);
@@ -709,3 +720,6 @@ export function edgePrior(
   if (!hasHeavy || r < 0 || mass > 400) return { prior: w.implausibleLoss, kind: 'implausible' };
   return { prior: w.unknownLoss, kind: 'unknown' };
 }
+
+/** Scratch of {@link edgePrior} (read before it returns). */
+const lossScratch = new Int32Array(NE);
