@@ -505,7 +505,8 @@ export function evaluateTopologies(
 function cleavable(topo: Topology, cleaved: readonly number[]): boolean {
   if (!topo.cLinked) return false;
   if (cleaved.length === 1) return topo.cCounts[cleaved[0]!]! >= 1;
-  const [a, b] = cleaved as [number, number];
+  const a = cleaved[0]!;
+  const b = cleaved[1]!;
   return a === b ? topo.cCounts[a]! >= 2 : topo.cCounts[a]! >= 1 && topo.cCounts[b]! >= 1;
 }
 

@@ -293,12 +293,13 @@ export function searchTopologies(
   // among the few hundred topologies one search visits).
   const visited = new Map<number, number>();
   const view = predictor.view(units);
+  const keep = () => predictor.freeze(units);
   const evaluate = (parent: number[], linkage: Linkage[]): number => {
     const h = hasher.hash(parent, linkage);
     const hit = visited.get(h);
     if (hit !== undefined) return hit;
     predictor.predict(parent, linkage);
-    const s = score(view, () => predictor.freeze(units));
+    const s = score(view, keep);
     visited.set(h, s);
     return s;
   };

@@ -448,9 +448,11 @@ export function matchHypothesis(
     }
     if (options.polarity === 'positive') {
       // Oxonium ions of one or two residues and acylium ions, [units + H]+; oxonium ions also − H2O.
-      for (const part of subMultisetsCached(compUnits, rules).list) {
-        const n = sum(part);
-        if (n === 0 || n > 2) continue;
+      // Sub-multisets come smallest first: those of one or two units lead the list.
+      for (let si = 0; si < subs.list.length && subs.size[si]! <= 2; si++) {
+        const part = subs.list[si]!;
+        const n = subs.size[si]!;
+        if (n === 0) continue;
         let cation = true;
         let acyls = 0;
         for (let u = 0; u < nU; u++) {
@@ -459,9 +461,7 @@ export function matchHypothesis(
           if (units[u]!.kind === 'acyl') acyls += part[u]!;
         }
         if (!cation || (acyls > 0 && n > 1)) continue;
-        tmp.fill(0);
-        for (let u = 0; u < nU; u++)
-          if (part[u]) for (let e = 0; e < NE; e++) tmp[e]! += part[u]! * units[u]!.counts[e]!;
+        for (let e = 0; e < NE; e++) tmp[e] = subs.atoms[si * NE + e]!;
         tmp[1]! += 1;
         for (let water = 0; water <= (acyls > 0 ? 0 : 1); water++) {
           if (water) {
