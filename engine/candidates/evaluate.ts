@@ -5,7 +5,7 @@ import type { CompiledRuleSet } from '../rules/compile.js';
 import type { CleanSpectrum } from '../spectrum/clean.js';
 import type { TreeSolution } from '../tree/graph.js';
 import { fragmentDelta, type Interpretation, type PrecursorHypothesis } from './precursor.js';
-import { LruCache } from './cache.js';
+import { countsKey, LruCache } from './cache.js';
 import { enumerateTopologies, removedKey, searchTopologies, type Topology } from './topology.js';
 
 /** A peak a candidate explains, with the ion it reads it as. */
@@ -113,7 +113,10 @@ export function compositionBounds(
 }
 
 /** Enumerated topologies per composition (they depend on the rule set only). */
-const topologyCache = new WeakMap<CompiledRuleSet, LruCache<string, Topology[]>>();
+const topologyCache = new WeakMap<CompiledRuleSet, LruCache<number | string, Topology[]>>();
+
+/** Topologies enumerated per composition unless the options say otherwise. */
+const DEFAULT_MAX_TOPOLOGIES = 400;
 
 /** Compositions whose enumerated topologies are kept (each list holds up to `maxTopologies`, ~1 KB each). */
 const TOPOLOGY_CACHE_SIZE = 1_000;
@@ -129,9 +132,13 @@ function topologiesFor(
     cache = new LruCache(TOPOLOGY_CACHE_SIZE);
     topologyCache.set(rules, cache);
   }
-  return cache.getOrSet(`${units.join(',')}|${maxCLinked}|${limit}`, () =>
-    enumerateTopologies(units, rules.units, { maxCLinked, limit }),
-  );
+  const k = countsKey(units);
+  // A number for the usual calls (C-link count < 4, the default limit), text otherwise.
+  const key =
+    typeof k === 'number' && maxCLinked < 4 && limit === DEFAULT_MAX_TOPOLOGIES
+      ? k * 4 + maxCLinked
+      : `${k}|${maxCLinked}|${limit}`;
+  return cache.getOrSet(key, () => enumerateTopologies(units, rules.units, { maxCLinked, limit }));
 }
 
 /** Weight of the fragmentation tree's score in a candidate's score. */
@@ -477,7 +484,7 @@ export function evaluateTopologies(
   if (options.only) {
     scoreTopology(options.only);
   } else if (instances <= (options.enumerateUpTo ?? 4)) {
-    for (const topo of topologiesFor(rules, compUnits, maxC, options.maxTopologies ?? 400))
+    for (const topo of topologiesFor(rules, compUnits, maxC, options.maxTopologies ?? DEFAULT_MAX_TOPOLOGIES))
       scoreTopology(topo);
   } else {
     searchTopologies(compUnits, rules.units, scoreTopology, { maxCLinked: maxC });

@@ -1,7 +1,7 @@
 import { ELECTRON_MASS } from '../chem/elements.js';
 import type { PrecursorHypothesis } from '../candidates/precursor.js';
 import { fragmentDelta } from '../candidates/precursor.js';
-import { LruCache } from '../candidates/cache.js';
+import { countsKey, LruCache } from '../candidates/cache.js';
 import type { CompiledRuleSet } from '../rules/compile.js';
 import { type CleanSpectrum, tolDa } from '../spectrum/clean.js';
 import { buildGraph, type FragGraph } from '../tree/graph.js';
@@ -154,7 +154,7 @@ interface SubMultisets {
 }
 
 /** Sub-multisets by rule set and composition (a few KB per composition at most). */
-const subCache = new WeakMap<CompiledRuleSet, LruCache<string, SubMultisets>>();
+const subCache = new WeakMap<CompiledRuleSet, LruCache<number | string, SubMultisets>>();
 
 /** {@link subMultisets} with atoms and masses, memoised by the vector (compositions repeat across spectra). */
 function subMultisetsCached(units: Uint8Array, rules: CompiledRuleSet): SubMultisets {
@@ -163,7 +163,7 @@ function subMultisetsCached(units: Uint8Array, rules: CompiledRuleSet): SubMulti
     cache = new LruCache(4_000);
     subCache.set(rules, cache);
   }
-  return cache.getOrSet(units.join(','), () => {
+  return cache.getOrSet(countsKey(units), () => {
     const list = subMultisets(units);
     const atoms = new Int32Array(list.length * NE);
     const mass = new Float64Array(list.length);
