@@ -366,7 +366,8 @@ export function evaluateTopologies(
   const chosen = new Int16Array(readings.length);
   // The best KEEP topologies so far, best first; entries are recycled as better ones push them out.
   const perComposition: Kept[] = [];
-  const seenCross = new Set<number>();
+  // Cross-ring cleavages seen by the current topology: seenCross[x] === stamp (no set to clear per call).
+  const seenCross = new Int32Array(rules.crossRingResidue.length);
   // The distinct keys the readings ask about, so each topology is probed once per key, not per reading:
   // Y-loss keys (kinds 0–2) and unit keys of oxonium / acylium ions (kind 3), indexed per reading entry.
   const yKeys: number[] = [];
@@ -408,7 +409,6 @@ export function evaluateTopologies(
     // Distinct Y ions seen other than the precursor (key 0) and Y0.
     let seenY = 0;
     stamp++;
-    seenCross.clear();
     for (let i = 0; i < yKeys.length; i++) yAdmitted[i] = topo.yLosses.has(yKeys[i]!) ? 1 : 0;
     for (let i = 0; i < bKeys.length; i++) bAdmitted[i] = topo.bUnits.has(bKeys[i]!) ? 1 : 0;
     for (let r = 0; r < readings.length; r++) {
@@ -435,8 +435,8 @@ export function evaluateTopologies(
         } else if (x.kind === 2) {
           crossIntensity += intensity;
           const combo = rules.lossCombos[x.deriv!.combo]!;
-          seenCross.add(combo.crossRing);
-          if (combo.crossRing2 >= 0) seenCross.add(combo.crossRing2);
+          seenCross[combo.crossRing] = stamp;
+          if (combo.crossRing2 >= 0) seenCross[combo.crossRing2] = stamp;
         }
         break;
       }
@@ -450,7 +450,7 @@ export function evaluateTopologies(
       for (let i = 0; i < topo.unit.length; i++) {
         if (topo.linkage[i] !== 'C') continue;
         const diagnostic = rules.diagnosticCrossRing.get(topo.unit[i]!);
-        if (diagnostic) for (const x of diagnostic) if (!seenCross.has(x)) penalty += 0.5 * w.missingIon;
+        if (diagnostic) for (const x of diagnostic) if (seenCross[x] !== stamp) penalty += 0.5 * w.missingIon;
       }
     }
     // Every topology predicts the precursor (key 0) and Y0; the other Y ions it predicts are missing unless seen.

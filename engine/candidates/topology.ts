@@ -53,7 +53,18 @@ export class KeySet implements Iterable<number> {
 
 /** Sorts `a[0, n)` in place and moves its distinct values to the front; returns how many there are. */
 function sortUnique(a: Float64Array, n: number): number {
-  a.subarray(0, n).sort();
+  if (n <= 32) {
+    // Insertion sort: no view to allocate, and fast for the short lists most topologies have.
+    for (let i = 1; i < n; i++) {
+      const x = a[i]!;
+      let j = i - 1;
+      while (j >= 0 && a[j]! > x) {
+        a[j + 1] = a[j]!;
+        j--;
+      }
+      a[j + 1] = x;
+    }
+  } else a.subarray(0, n).sort();
   let m = 0;
   for (let i = 0; i < n; i++) if (m === 0 || a[i] !== a[m - 1]) a[m++] = a[i]!;
   return m;
