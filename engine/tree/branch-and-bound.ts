@@ -3,7 +3,7 @@ import { solveGreedy } from './greedy.js';
 
 /** Options of {@link solveExact}. */
 export interface ExactOptions {
-  /** Give up (and return the best tree found, marked not exact) after this many search nodes. @defaultValue 200000 */
+  /** Give up (and return the best tree found, marked not exact) after this many search nodes. @defaultValue 20000 */
   maxSteps?: number;
 }
 
@@ -17,7 +17,7 @@ export interface ExactOptions {
  * chain, few colour conflicts) is proven optimal after one descent.
  */
 export function solveExact(g: FragGraph, options: ExactOptions = {}): TreeSolution {
-  const maxSteps = options.maxSteps ?? 200_000;
+  const maxSteps = options.maxSteps ?? 20_000;
   const n = g.nodeCount;
   const C = g.colourCount;
   const seed = solveGreedy(g);

@@ -6,7 +6,7 @@ import { solveGreedy } from './greedy.js';
 export interface SolveTreeOptions {
   /** Graphs with more nodes than this go straight to the heuristic. @defaultValue 120 */
   maxExactNodes?: number;
-  /** Branch-and-bound search nodes before it gives up and keeps its best tree. @defaultValue 200000 */
+  /** Branch-and-bound search nodes before it gives up and keeps its best tree. @defaultValue 20000 */
   maxExactSteps?: number;
 }
 
@@ -17,5 +17,5 @@ export interface SolveTreeOptions {
 export function solveTree(g: FragGraph, options: SolveTreeOptions = {}): TreeSolution {
   const maxNodes = options.maxExactNodes ?? 120;
   if (g.nodeCount > maxNodes) return solveGreedy(g);
-  return solveExact(g, { maxSteps: options.maxExactSteps ?? 200_000 });
+  return solveExact(g, { maxSteps: options.maxExactSteps ?? 20_000 });
 }
