@@ -29,28 +29,41 @@ export function quantile(sorted: ArrayLike<number>, q: number): number {
   return sorted[lo]! + (sorted[hi]! - sorted[lo]!) * (pos - lo);
 }
 
+/** What a pass keeps of each result: its status and tree solver (results are dropped, as a stream would). */
+interface Tally {
+  status: Record<SpectrumResult['status'], number>;
+  solver: { exact: number; heuristic: number; none: number };
+}
+
 /** One timed pass over the set. */
 interface Pass {
   seconds: number;
   cpuSeconds: number;
   perSpectrumMs: Float64Array;
-  results: SpectrumResult[];
+  tally: Tally;
 }
 
-function timedPass(spectra: readonly Spectrum[], run: (s: Spectrum) => SpectrumResult, keep: boolean): Pass {
+function timedPass(spectra: readonly Spectrum[], run: (s: Spectrum) => SpectrumResult): Pass {
   const perSpectrumMs = new Float64Array(spectra.length);
-  const results: SpectrumResult[] = [];
+  const tally: Tally = {
+    status: { annotated: 0, unassigned: 0, error: 0 },
+    solver: { exact: 0, heuristic: 0, none: 0 },
+  };
   const cpu0 = process.cpuUsage();
   const t0 = performance.now();
   for (let i = 0; i < spectra.length; i++) {
     const a = performance.now();
     const r = run(spectra[i]!);
     perSpectrumMs[i] = performance.now() - a;
-    if (keep) results.push(r);
+    // Counted, not kept: holding thousands of results would burden the garbage collector as no streaming
+    // run (the CLI, a worker) does.
+    tally.status[r.status]++;
+    const solver = r.tree?.solver;
+    tally.solver[solver === 'exact' ? 'exact' : solver === 'heuristic' ? 'heuristic' : 'none']++;
   }
   const seconds = (performance.now() - t0) / 1000;
   const cpu = process.cpuUsage(cpu0);
-  return { seconds, cpuSeconds: (cpu.user + cpu.system) / 1e6, perSpectrumMs, results };
+  return { seconds, cpuSeconds: (cpu.user + cpu.system) / 1e6, perSpectrumMs, tally };
 }
 
 export async function run(args: string[]): Promise<void> {
@@ -100,7 +113,7 @@ export async function run(args: string[]): Promise<void> {
 
   const loadBefore = loadavg();
   const runs: Pass[] = [];
-  for (let p = 0; p < passes; p++) runs.push(timedPass(slices[p]!, score, true));
+  for (let p = 0; p < passes; p++) runs.push(timedPass(slices[p]!, score));
   const loadAfter = loadavg();
 
   const rates = runs.map((r) => per / r.seconds);
@@ -111,15 +124,11 @@ export async function run(args: string[]): Promise<void> {
   const best = runs[order.at(-1)!]!;
   const sorted = Float64Array.from(median.perSpectrumMs).sort();
   const mean = (median.seconds * 1000) / per;
-  const results = runs.flatMap((r) => r.results);
   const status = { annotated: 0, unassigned: 0, error: 0 };
   const solver = { exact: 0, heuristic: 0, none: 0 };
-  for (const r of results) {
-    status[r.status]++;
-    const s = r.tree?.solver;
-    if (s === 'exact') solver.exact++;
-    else if (s === 'heuristic') solver.heuristic++;
-    else solver.none++;
+  for (const r of runs) {
+    for (const k of ['annotated', 'unassigned', 'error'] as const) status[k] += r.tally.status[k];
+    for (const k of ['exact', 'heuristic', 'none'] as const) solver[k] += r.tally.solver[k];
   }
   const withTree = solver.exact + solver.heuristic;
   const pct = (n: number, d: number) => (d === 0 ? '–' : `${((100 * n) / d).toFixed(1)} %`);
