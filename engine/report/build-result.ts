@@ -5,7 +5,7 @@ import {
   describeKey,
   type EvaluatedCandidate,
 } from '../candidates/evaluate.js';
-import { countsMass, countsString, NE } from '../graph/counts.js';
+import { countsMass, countsString, formulaKey, NE } from '../graph/counts.js';
 import { edgePrior } from '../graph/fragment-graph.js';
 import { edgeWeight } from '../tree/greedy.js';
 import type { CompiledRuleSet } from '../rules/compile.js';
@@ -69,25 +69,29 @@ export function buildAnnotatedResult(
 ): SpectrumResult {
   const rules = compiled.rules;
   const w = rules.scoring;
-  // Merge candidates that differ only in which same-formula library aglycone they name.
-  const merged = new Map<string, Ranked>();
+  // Merge candidates that differ only in which same-formula library aglycone they name: same precursor
+  // formula, Y0 formula, composition and stacking. Bucketed by a number, then compared in full.
+  const buckets = new Map<number, Ranked[]>();
+  const all: Ranked[] = [];
   for (const s of solved) {
     for (const c of s.candidates) {
       const agl = c.interpretation.aglycone;
-      const key = candidateKey(c);
+      const y0Key = formulaKey(c.y0.counts, c.y0.charge);
+      const bucket = (c.hypothesis.key % 0x100000) * 0x100000 + (y0Key % 0x100000) + c.interpretation.compositionIndex;
+      let list = buckets.get(bucket);
+      if (!list) {
+        list = [];
+        buckets.set(bucket, list);
+      }
+      const prev = list.find((r) => sameCandidate(r.c, c));
       const names = agl.kind === 'library' ? agl.group.members.map((m) => m.name) : ['unknown'];
       const classes = agl.kind === 'library' ? agl.group.members.map((m) => m.class) : [''];
       const ion = c.interpretation.ion.name;
-      const prev = merged.get(key);
-      if (!prev)
-        merged.set(key, {
-          c,
-          solved: s,
-          names: [...names],
-          classes: [...classes],
-          ions: names.map(() => ion),
-        });
-      else {
+      if (!prev) {
+        const r: Ranked = { c, solved: s, names, classes, ions: names.map(() => ion) };
+        list.push(r);
+        all.push(r);
+      } else {
         if (c.score > prev.c.score) prev.c = c;
         names.forEach((n, i) => {
           if (!prev.names.includes(n)) {
@@ -99,7 +103,7 @@ export function buildAnnotatedResult(
       }
     }
   }
-  const ranked = [...merged.values()].sort((a, b) => b.c.score - a.c.score);
+  const ranked = all.sort((a, b) => b.c.score - a.c.score);
   const best = ranked[0];
   const cautions: string[] = [...user.userNotes];
   const minEvidence = best && best.c.explained >= w.minExplained && best.c.keyIonSeen;
@@ -136,7 +140,7 @@ export function buildAnnotatedResult(
     const aglClass = agl.kind === 'library' ? r.classes[r.names.indexOf(primary)] : undefined;
     const tied = i > 0 && Math.abs(ranked[i - 1]!.c.evidence - c.evidence) < w.tieMargin;
     const notes: string[] = [];
-    const userLabel = user.userKeys.get(candidateKey(c));
+    const userLabel = user.userKeys.size > 0 ? user.userKeys.get(candidateKey(c)) : undefined;
     if (userLabel !== undefined) notes.push(`User-supplied candidate: ${userLabel}.`);
     if (alternatives.length > 0) {
       notes.push(`Same ion formula as ${alternatives.join(', ')}: MS/MS cannot tell these aglycones apart.`);
@@ -168,7 +172,7 @@ export function buildAnnotatedResult(
       score: round(c.score, 3),
       confidenceLevel: level,
       ...(tied ? { tiedWithPrevious: true } : {}),
-      source: user.userKeys.has(candidateKey(c)) ? 'user' : 'rules',
+      source: userLabel !== undefined ? 'user' : 'rules',
       matchedPeaks: [
         // The precursor ion left in the MS2 spectrum counts as explained: list it too.
         ...(clean.precursorIndex >= 0
@@ -208,6 +212,16 @@ export function buildAnnotatedResult(
     tree: reportTree(best.solved, clean, compiled),
     cautions: [...STANDARD_CAUTIONS, ...cautions],
   };
+}
+
+/** Whether two candidates are one structure (what {@link candidateKey} identifies). */
+function sameCandidate(a: EvaluatedCandidate, b: EvaluatedCandidate): boolean {
+  if (a.hypothesis.key !== b.hypothesis.key || a.topology.notation !== b.topology.notation) return false;
+  if (formulaKey(a.y0.counts, a.y0.charge) !== formulaKey(b.y0.counts, b.y0.charge)) return false;
+  const ua = a.interpretation.composition.units;
+  const ub = b.interpretation.composition.units;
+  for (let u = 0; u < ua.length; u++) if (ua[u] !== ub[u]) return false;
+  return true;
 }
 
 function round(x: number, digits: number): number {
