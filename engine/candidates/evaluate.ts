@@ -227,25 +227,45 @@ export function screenInterpretations(
     const fixed = -ppmTerm - unknown - 0.1 * nUnits + prior + envelopeTerm;
     // Bare Y0 (every unit lost) or a cross-ring ion: without either, every topology pays the Y0 penalty.
     const allKey = removedKey(compUnits);
-    let aglyconeSeen = false;
+    let y0Seen = false;
     let crossSeen = false;
     const yKeys = new Set<number>();
+    const crossCleavages = new Set<number>();
     for (const r of readings)
       for (const x of r.list) {
-        if (x.kind === 0 && x.key === allKey) aglyconeSeen = true;
-        if (x.kind === 2) crossSeen = aglyconeSeen = true;
+        if (x.kind === 0 && x.key === allKey) y0Seen = true;
+        if (x.kind === 2) {
+          crossSeen = true;
+          const combo = rules.lossCombos[x.deriv!.combo]!;
+          crossCleavages.add(combo.crossRing);
+          if (combo.crossRing2 >= 0) crossCleavages.add(combo.crossRing2);
+        }
         if (x.kind === 0 && x.key !== 0 && x.key !== allKey) yKeys.add(x.key);
       }
     // Every topology predicts at least one Y ion per retained-unit count (a linear extension's prefixes): with
-    // n units of which at most c are C-linked (fixed), n − c − 1 intermediate Y ions, each missing one costed.
-    let cLinkable = 0;
-    compUnits.forEach((k, u) => {
-      if (rules.units[u]!.linkages.includes('C')) cLinkable += k;
-    });
-    const maxC = crossSeen ? Math.min(2, cLinkable) : 0; // as in evaluateTopologies
-    const missingY = Math.max(0, nUnits - maxC - 1 - yKeys.size);
-    const screenScore =
-      10 * bound[ci]! + fixed - (aglyconeSeen ? 0 : 2 * w.missingIon) - 0.25 * w.missingIon * missingY;
+    // n units of which c are C-linked (fixed), n − c − 1 intermediate Y ions, each missing one costed.
+    const missingYCost = (c: number) => 0.25 * w.missingIon * Math.max(0, nUnits - c - 1 - yKeys.size);
+    // O-linked topologies pay for a missing bare Y0 (every unit lost).
+    let screenScore = 10 * bound[ci]! + fixed - (y0Seen ? 0 : 2 * w.missingIon) - missingYCost(0);
+    if (crossSeen) {
+      // C-linked topologies (enumerated only when cross-ring ions are read, as in evaluateTopologies): the
+      // C-linkage prior, and the diagnostic cross-ring ions missing for the least-penalised C-linkable residue.
+      let cLinkable = 0;
+      let diagnosticCost = Number.POSITIVE_INFINITY;
+      compUnits.forEach((k, u) => {
+        if (k === 0 || !rules.units[u]!.linkages.includes('C')) return;
+        cLinkable += k;
+        let cost = 0;
+        for (const x of rules.diagnosticCrossRing.get(u) ?? [])
+          if (!crossCleavages.has(x)) cost += 0.5 * w.missingIon;
+        diagnosticCost = Math.min(diagnosticCost, cost);
+      });
+      if (cLinkable > 0) {
+        const cBound =
+          10 * bound[ci]! + fixed - w.cLinkage - diagnosticCost - missingYCost(Math.min(2, cLinkable));
+        screenScore = Math.max(screenScore, cBound);
+      }
+    }
     out.push({
       hypothesis: h,
       matched: hg,
