@@ -579,19 +579,46 @@ class Predictor {
     return { y: this.#yKeys, b: this.#bKeys, c: this.#cCounts };
   }
 
-  /** A standalone copy of the current prediction. */
+  /** A standalone copy of the current prediction (its notation is written when first read). */
   freeze(units: readonly Unit[], notation?: string): Topology {
-    return {
-      unit: this.unit.slice(),
-      parent: this.#parent.slice(),
-      linkage: this.#linkage.slice(),
-      notation: notation ?? canonical(this.unit, this.#parent, this.#linkage, units),
-      yLosses: new KeySet(this.#yKeys.slice(0, this.#ySize), this.#ySize),
-      bUnits: new KeySet(this.#bKeys.slice(0, this.#bSize), this.#bSize),
-      y0Loss: this.#y0Loss,
-      cLinked: this.#cLinked,
-      cCounts: this.#cCounts.slice(),
-    };
+    return new FrozenTopology(
+      this.unit.slice(),
+      this.#parent.slice(),
+      this.#linkage.slice(),
+      new KeySet(this.#yKeys.slice(0, this.#ySize), this.#ySize),
+      new KeySet(this.#bKeys.slice(0, this.#bSize), this.#bSize),
+      this.#y0Loss,
+      this.#cLinked,
+      this.#cCounts.slice(),
+      units,
+      notation,
+    );
+  }
+
+}
+
+/** A topology that owns its data; the canonical notation is built on first use (most are never shown). */
+class FrozenTopology implements Topology {
+  #notation: string | undefined;
+
+  constructor(
+    readonly unit: readonly number[],
+    readonly parent: readonly number[],
+    readonly linkage: readonly Linkage[],
+    readonly yLosses: KeySet,
+    readonly bUnits: KeySet,
+    readonly y0Loss: number,
+    readonly cLinked: boolean,
+    readonly cCounts: Uint8Array,
+    readonly units: readonly Unit[],
+    notation: string | undefined,
+  ) {
+    this.#notation = notation;
+  }
+
+  get notation(): string {
+    this.#notation ??= canonical(this.unit, this.parent, this.linkage, this.units);
+    return this.#notation;
   }
 }
 

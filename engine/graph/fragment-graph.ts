@@ -423,7 +423,17 @@ export function matchHypothesis(
           }
         }
         if (nMatch === 0) continue;
-        const found = matches.subarray(0, nMatch).sort();
+        // Into rule order (insertion sort: a handful of matches, no view to allocate).
+        for (let a = 1; a < nMatch; a++) {
+          const x = matches[a]!;
+          let b = a - 1;
+          while (b >= 0 && matches[b]! > x) {
+            matches[b + 1] = matches[b]!;
+            b--;
+          }
+          matches[b + 1] = x;
+        }
+        const found = matches;
         for (let m = 0; m < nMatch; m++) {
           const code = found[m]!;
           const p = code % stride;
