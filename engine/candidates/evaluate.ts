@@ -56,6 +56,14 @@ export interface PeakReadings {
   readonly list: readonly Reading[];
 }
 
+/** The topologies one interpretation's search kept, to be reused by interpretations with the same readings. */
+export interface TopologyRun {
+  readonly comp: number;
+  readonly fixed: number;
+  readonly prior: number;
+  readonly candidates: EvaluatedCandidate[];
+}
+
 /** Weights and limits for {@link evaluateCandidates}. */
 export interface EvaluateOptions {
   precursorPpm: number;
@@ -75,6 +83,11 @@ export interface EvaluateOptions {
   enumerateUpTo?: number;
   /** Score this one topology only (a user-supplied candidate). */
   only?: Topology;
+  /**
+   * Topology searches already run in this spectrum, by the readings they scored (readings are shared by the
+   * interpretations of one hypothesis that read the peaks alike): a later one reuses the ranking.
+   */
+  runs?: Map<readonly PeakReadings[], TopologyRun>;
   /** The precursor's MS1 isotope envelope (`[m/z, intensity]`, monoisotopic first), when the input gave it. */
   envelope?: readonly (readonly [number, number])[];
 }
@@ -367,7 +380,7 @@ export function evaluateTopologies(
   const crossSeen = readings.some((r) => r.list.some((x) => x.kind === 2));
   // Interpretations that share a composition and its readings (same-formula aglycone groups, ion types)
   // rank the topologies identically: reuse the first search, shifted by the difference in fixed terms.
-  const shared = options.only ? undefined : topologyRuns.get(readings);
+  const shared = options.only ? undefined : options.runs?.get(readings);
   if (shared && shared.comp === s.comp) {
     const shift = fixed - shared.fixed;
     const priorShift = s.prior - shared.prior;
@@ -524,7 +537,7 @@ export function evaluateTopologies(
       treeScore: tree.score,
     }),
   );
-  if (!options.only) topologyRuns.set(readings, { comp: s.comp, fixed, prior: s.prior, candidates });
+  if (!options.only) options.runs?.set(readings, { comp: s.comp, fixed, prior: s.prior, candidates });
   return keepBest(candidates, options.best.score - window);
 }
 
@@ -537,11 +550,7 @@ function cleavable(topo: Topology, cleaved: readonly number[]): boolean {
   return a === b ? topo.cCounts[a]! >= 2 : topo.cCounts[a]! >= 1 && topo.cCounts[b]! >= 1;
 }
 
-/** Searches already run, by the readings they scored (readings are shared within one hypothesis). */
-const topologyRuns = new WeakMap<
-  readonly PeakReadings[],
-  { comp: number; fixed: number; prior: number; candidates: EvaluatedCandidate[] }
->();
+
 
 /** Topologies kept per interpretation. */
 const KEEP = 12;

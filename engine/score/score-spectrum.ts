@@ -133,6 +133,7 @@ function scoreUnchecked(
     polarity,
     best,
     window,
+    runs: new Map(),
     ...(spectrum.isotopes ? { envelope: spectrum.isotopes } : {}),
   };
   // Screen the interpretations of the hypotheses that can still compete (no tree yet).
