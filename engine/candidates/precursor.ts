@@ -182,15 +182,21 @@ export function interpretPrecursor(
   const keyIon = (ion: IonType, aglCounts: Counts, cation: boolean, comp: Composition): boolean => {
     const frag = cation ? NO_DELTA : fragmentDelta(ion, rules);
     const z = frag.charge;
+    const az = Math.abs(z);
+    const shift = z * ELECTRON_MASS;
     const y0 = countsMass(aglCounts) + countsMass(frag.counts);
-    const at = (atoms: number) => hasPeak(spectrum, (atoms - z * ELECTRON_MASS) / Math.abs(z), options);
-    if (at(y0)) return true;
-    if (polarity === 'negative' && at(y0 - H_MASS)) return true;
-    for (const x of crossOnC) {
+    if (hasPeak(spectrum, (y0 - shift) / az, options)) return true;
+    if (polarity === 'negative' && hasPeak(spectrum, (y0 - H_MASS - shift) / az, options)) return true;
+    for (let k = 0; k < crossOnC.length; k++) {
+      const x = crossOnC[k]!;
       const r = rules.crossRingResidue[x]!;
       if (comp.units[r]! < 1) continue;
       const ion1 = y0 + rules.units[r]!.mass - rules.crossRingMasses[x]!;
-      if (at(ion1) || at(ion1 - WATER)) return true;
+      if (
+        hasPeak(spectrum, (ion1 - shift) / az, options) ||
+        hasPeak(spectrum, (ion1 - WATER - shift) / az, options)
+      )
+        return true;
     }
     return false;
   };
