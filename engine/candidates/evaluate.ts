@@ -104,23 +104,25 @@ export function compositionBounds(
 ): Float64Array {
   const precursorShare = spectrum.precursorIndex >= 0 ? spectrum.intensity[spectrum.precursorIndex]! : 0;
   const bound = new Float64Array(compositionCount).fill(precursorShare);
-  const best = new Map<number, Float64Array>();
+  // Best reading weight per peak and composition, flat: wts[peak * compositionCount + ci].
+  const nPeaks = spectrum.mz.length;
+  const wts = new Float64Array(nPeaks * compositionCount);
   for (let v = 1; v < nodes.length; v++) {
     const n = nodes[v]!;
-    let wts = best.get(n.peak);
-    if (!wts) {
-      wts = new Float64Array(compositionCount);
-      best.set(n.peak, wts);
-    }
+    const at = n.peak * compositionCount;
     for (const d of n.derivs) {
       const combo = rules.lossCombos[d.combo]!;
       const wgt = combo.crossRing >= 0 ? 1 : 0.7 ** combo.size;
-      if (wgt > wts[d.comp]!) wts[d.comp] = wgt;
+      if (wgt > wts[at + d.comp]!) wts[at + d.comp] = wgt;
     }
-    for (const c of n.cations) if (wts[c.comp]! < 0.8) wts[c.comp] = 0.8;
+    for (const c of n.cations) if (wts[at + c.comp]! < 0.8) wts[at + c.comp] = 0.8;
   }
-  for (const [peak, wts] of best) {
-    for (let ci = 0; ci < compositionCount; ci++) bound[ci]! += wts[ci]! * spectrum.intensity[peak]!;
+  for (let p = 0; p < nPeaks; p++) {
+    const at = p * compositionCount;
+    for (let ci = 0; ci < compositionCount; ci++) {
+      const x = wts[at + ci]!;
+      if (x > 0) bound[ci]! += x * spectrum.intensity[p]!;
+    }
   }
   return bound;
 }
@@ -184,6 +186,8 @@ export function screenInterpretations(
   spectrum: CleanSpectrum,
   rules: CompiledRuleSet,
   options: EvaluateOptions,
+  /** {@link compositionBounds} of `hg`, when the caller has them already. */
+  bounds?: Float64Array,
 ): ScreenedInterpretation[] {
   const w = rules.rules.scoring;
   const h = hg.hypothesis;
@@ -194,7 +198,7 @@ export function screenInterpretations(
     if (list) list.push(n);
     else byPeak.set(n.peak, [n]);
   }
-  const bound = compositionBounds(hg.nodes, hg.compositions.length, spectrum, rules);
+  const bound = bounds ?? compositionBounds(hg.nodes, hg.compositions.length, spectrum, rules);
   const readingsOf = new Map<string, PeakReadings[]>();
   // MS1 isotope envelope against the precursor formula: 4 × (similarity − 0.75), so a close fit (≥ 0.95)
   // adds ~0.8 and a poor one (0.5) costs 1; a sulphur or chlorine formula shows in its M+2 peak.
@@ -549,8 +553,6 @@ function cleavable(topo: Topology, cleaved: readonly number[]): boolean {
   const b = cleaved[1]!;
   return a === b ? topo.cCounts[a]! >= 2 : topo.cCounts[a]! >= 1 && topo.cCounts[b]! >= 1;
 }
-
-
 
 /** Topologies kept per interpretation. */
 const KEEP = 12;

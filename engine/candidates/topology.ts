@@ -594,7 +594,6 @@ class Predictor {
       notation,
     );
   }
-
 }
 
 /** A topology that owns its data; the canonical notation is built on first use (most are never shown). */

@@ -77,7 +77,8 @@ export function buildAnnotatedResult(
     for (const c of s.candidates) {
       const agl = c.interpretation.aglycone;
       const y0Key = formulaKey(c.y0.counts, c.y0.charge);
-      const bucket = (c.hypothesis.key % 0x100000) * 0x100000 + (y0Key % 0x100000) + c.interpretation.compositionIndex;
+      const bucket =
+        (c.hypothesis.key % 0x100000) * 0x100000 + (y0Key % 0x100000) + c.interpretation.compositionIndex;
       let list = buckets.get(bucket);
       if (!list) {
         list = [];

@@ -122,8 +122,8 @@ function scoreUnchecked(
   const matched = hypotheses
     .map((h) => {
       const m = matchHypothesis(h, clean, compiled, graphOptions);
-      const bound = compositionBounds(m.nodes, m.compositions.length, clean, compiled);
-      return { m, bound: Math.max(...bound) };
+      const bounds = compositionBounds(m.nodes, m.compositions.length, clean, compiled);
+      return { m, bounds, bound: Math.max(...bounds) };
     })
     .sort((a, b) => b.bound - a.bound);
   const best = { score: Number.NEGATIVE_INFINITY };
@@ -139,10 +139,10 @@ function scoreUnchecked(
   // Screen the interpretations of the hypotheses that can still compete (no tree yet).
   const screened: ScreenedInterpretation[] = [];
   let bestScreen = Number.NEGATIVE_INFINITY;
-  for (const { m, bound } of matched) {
+  for (const { m, bounds, bound } of matched) {
     // The tree adds at most ~0.2 per node to a candidate's score (0.05 × ≤ 4 per edge).
     if (10 * bound + treeAllowance(m) < bestScreen - window) continue;
-    for (const x of screenInterpretations(m, clean, compiled, evaluateOptions)) {
+    for (const x of screenInterpretations(m, clean, compiled, evaluateOptions, bounds)) {
       screened.push(x);
       if (x.screenScore > bestScreen) bestScreen = x.screenScore;
     }
