@@ -132,6 +132,10 @@ interface PrecursorTables {
   readonly aglyconeKeys: ReadonlySet<number>;
   /** Cross-ring losses (indices) of residues that may be C-linked. */
   readonly crossOnC: readonly number[];
+  /** Per composition (by index), 1 when it holds a residue with a cross-ring loss that may be C-linked. */
+  readonly hasCLinkable: Uint8Array;
+  /** Every composition's unit counts in one flat array (`[index * units + u]`), read without pointer chasing. */
+  readonly compositionUnits: Uint8Array;
   /** First composition (by mass) of each whole-dalton bin: compositions from `massIndex[⌊m⌋]` have mass ≥ ⌊m⌋. */
   readonly massIndex: Int32Array;
 }
@@ -150,6 +154,10 @@ function precursorTables(rules: CompiledRuleSet): PrecursorTables {
       aglyconeKeys: new Set(rules.aglyconeGroups.map((g) => formulaKey(g.counts, g.cation ? 1 : 0))),
       crossOnC: rules.crossRingResidue.flatMap((r, x) => (rules.units[r]!.linkages.includes('C') ? [x] : [])),
       massIndex: massBins(rules.compositionMasses),
+      compositionUnits: Uint8Array.from(rules.compositions.flatMap((c) => Array.from(c.units))),
+      hasCLinkable: Uint8Array.from(rules.compositions, (c) =>
+        rules.crossRingResidue.some((r) => c.units[r]! > 0 && rules.units[r]!.linkages.includes('C')) ? 1 : 0,
+      ),
     };
     precursorTableCache.set(rules, t);
   }
@@ -175,11 +183,13 @@ export function interpretPrecursor(
     charge === undefined ? Math.abs(t.charge) === 1 : Math.abs(t.charge) === Math.abs(charge),
   );
   const masses = rules.compositionMasses;
-  const { aglFilter, residueMasses, aglyconeKeys, crossOnC, massIndex } = precursorTables(rules);
+  const { aglFilter, residueMasses, aglyconeKeys, crossOnC, hasCLinkable, compositionUnits, massIndex } =
+    precursorTables(rules);
+  const nUnits = rules.units.length;
 
   // Whether the interpretation's aglycone is evidenced: its Y0 (or radical Y0) ion, or a cross-ring ion of a
   // C-linkable residue on it. Readings without either could never be annotated, so they are not pursued.
-  const keyIon = (ion: IonType, aglCounts: Counts, cation: boolean, comp: Composition): boolean => {
+  const keyIon = (ion: IonType, aglCounts: Counts, cation: boolean, compIndex: number): boolean => {
     const frag = cation ? NO_DELTA : fragmentDelta(ion, rules);
     const z = frag.charge;
     const az = Math.abs(z);
@@ -187,10 +197,12 @@ export function interpretPrecursor(
     const y0 = countsMass(aglCounts) + countsMass(frag.counts);
     if (hasPeak(spectrum, (y0 - shift) / az, options)) return true;
     if (polarity === 'negative' && hasPeak(spectrum, (y0 - H_MASS - shift) / az, options)) return true;
+    // Cross-ring losses of the C-linkable residues the composition holds (a flat table: no pointer chase).
+    if (!hasCLinkable[compIndex]) return false;
     for (let k = 0; k < crossOnC.length; k++) {
       const x = crossOnC[k]!;
       const r = rules.crossRingResidue[x]!;
-      if (comp.units[r]! < 1) continue;
+      if (compositionUnits[compIndex * nUnits + r]! < 1) continue;
       const ion1 = y0 + rules.units[r]!.mass - rules.crossRingMasses[x]!;
       if (
         hasPeak(spectrum, (ion1 - shift) / az, options) ||
@@ -202,8 +214,8 @@ export function interpretPrecursor(
   };
 
   const add = (ion: IonType, agl: AglyconeChoice, compIndex: number, aglCounts: Counts) => {
+    if (!keyIon(ion, aglCounts, agl.kind === 'library' && agl.group.cation, compIndex)) return;
     const comp = rules.compositions[compIndex]!;
-    if (!keyIon(ion, aglCounts, agl.kind === 'library' && agl.group.cation, comp)) return;
     const counts = new Int32Array(NE);
     for (let e = 0; e < NE; e++)
       counts[e] = (aglCounts[e]! + comp.counts[e]!) * ion.multiplier + ion.delta.counts[e]!;
