@@ -457,8 +457,10 @@ class ShapeHasher {
 class Predictor {
   readonly #weight: Float64Array;
   #total = 0;
-  readonly #kept: Float64Array;
-  readonly #req: Int32Array;
+  readonly #order: Int32Array;
+  readonly #depth: Int32Array;
+  #fixedMask = 0;
+  #ny = 0;
   readonly #yKeys: Float64Array;
   readonly #bKeys: Float64Array;
   readonly #subtree: Float64Array;
@@ -479,8 +481,8 @@ class Predictor {
     readonly nUnits: number,
   ) {
     this.#weight = new Float64Array(n);
-    this.#kept = new Float64Array(1 << n);
-    this.#req = new Int32Array(1 << n);
+    this.#order = new Int32Array(n);
+    this.#depth = new Int32Array(n);
     this.#yKeys = new Float64Array(1 << n);
     this.#bKeys = new Float64Array(n);
     this.#subtree = new Float64Array(n);
@@ -507,12 +509,11 @@ class Predictor {
   predict(parent: readonly number[], linkage: readonly Linkage[]): void {
     const n = this.n;
     const weight = this.#weight;
-    const kept = this.#kept;
-    const req = this.#req;
     this.#parent = parent;
     this.#linkage = linkage;
     // Retained sets: closed towards the aglycone (each kept instance's parent kept), holding every C-linked
-    // residue. kept[mask] and req[mask] (the parents the set needs) grow from mask without its lowest bit.
+    // residue. Enumerated depth-first over the instances, parents before children: a chain has n + 1 such
+    // sets, so this visits far fewer than the 2^n subsets.
     let fixedMask = 0;
     this.#cCounts.fill(0);
     for (let i = 0; i < n; i++) {
@@ -521,19 +522,21 @@ class Predictor {
         this.#cCounts[this.#unit[i]!]!++;
       }
     }
-    const full = 1 << n;
-    let ny = 0;
-    if (fixedMask === 0) this.#yKeys[ny++] = this.#total;
-    for (let mask = 1; mask < full; mask++) {
-      const low = mask & -mask;
-      const i = 31 - Math.clz32(low);
-      const prev = mask ^ low;
-      const p = parent[i]!;
-      kept[mask] = kept[prev]! + weight[i]!;
-      req[mask] = req[prev]! | (p >= 0 ? 1 << p : 0);
-      if ((mask & fixedMask) === fixedMask && (req[mask]! & ~mask) === 0)
-        this.#yKeys[ny++] = this.#total - kept[mask]!;
+    const order = this.#order;
+    let m = 0;
+    const depth = this.#depth;
+    let maxDepth = 0;
+    for (let i = 0; i < n; i++) {
+      let d = 0;
+      for (let j = parent[i]!; j >= 0; j = parent[j]!) d++;
+      depth[i] = d;
+      if (d > maxDepth) maxDepth = d;
     }
+    for (let d = 0; d <= maxDepth; d++) for (let i = 0; i < n; i++) if (depth[i] === d) order[m++] = i;
+    this.#fixedMask = fixedMask;
+    this.#ny = 0;
+    this.#ideals(0, 0, 0);
+    const ny = this.#ny;
     this.#ySize = sortUnique(this.#yKeys, ny);
     // Terminal subtrees (an instance with all its descendants) leave as B / acylium ions.
     const subtree = this.#subtree;
@@ -550,6 +553,18 @@ class Predictor {
     this.#y0Loss = y0Loss;
     this.#cLinked = fixedMask !== 0;
     this.#view?.sync();
+  }
+
+  /** Depth-first enumeration of the retained sets from instance `order[k]` on (see {@link predict}). */
+  #ideals(k: number, kept: number, inMask: number): void {
+    if (k === this.n) {
+      this.#yKeys[this.#ny++] = this.#total - kept;
+      return;
+    }
+    const i = this.#order[k]!;
+    const p = this.#parent[i]!;
+    if (p < 0 || (inMask >> p) & 1) this.#ideals(k + 1, kept + this.#weight[i]!, inMask | (1 << i));
+    if (!((this.#fixedMask >> i) & 1)) this.#ideals(k + 1, kept, inMask);
   }
 
   /** A view of the current prediction (rewritten by the next {@link Predictor.predict}). */
