@@ -57,16 +57,17 @@ export function fragmentDelta(
     byIon = new Map();
     fragmentDeltas.set(rules, byIon);
   }
-  let d = byIon.get(ion.name);
+  let d = byIon.get(ion);
   if (!d) {
     d = computeFragmentDelta(ion, rules);
-    byIon.set(ion.name, d);
+    if (byIon.size > 256) byIon.clear(); // ion types are the rule set's own objects; bounded all the same
+    byIon.set(ion, d);
   }
   return d;
 }
 
 /** {@link fragmentDelta} per rule set and ion type (shared: callers only read them). */
-const fragmentDeltas = new WeakMap<CompiledRuleSet, Map<string, { counts: Counts; charge: number }>>();
+const fragmentDeltas = new WeakMap<CompiledRuleSet, Map<IonType, { counts: Counts; charge: number }>>();
 
 function computeFragmentDelta(ion: IonType, rules: CompiledRuleSet): { counts: Counts; charge: number } {
   const counts = Int32Array.from(ion.delta.counts);
