@@ -199,7 +199,7 @@ export function screenInterpretations(
     else byPeak.set(n.peak, [n]);
   }
   const bound = bounds ?? compositionBounds(hg.nodes, hg.compositions.length, spectrum, rules);
-  const readingsOf = new Map<string, PeakReadings[]>();
+  const readingsOf = new Map<number, PeakReadings[]>();
   // MS1 isotope envelope against the precursor formula: 4 × (similarity − 0.75), so a close fit (≥ 0.95)
   // adds ~0.8 and a poor one (0.5) costs 1; a sulphur or chlorine formula shows in its M+2 peak.
   let envelopeTerm = 0;
@@ -224,7 +224,9 @@ export function screenInterpretations(
     const y0 = { counts: y0Counts, charge: cation ? 1 : frag.charge };
     // Fragments of an adduct ion descend from the precursor or from its core after the adduct loss.
     const cores = hg.cores.map((k) => k.ions === undefined || k.ions.has(interp.ion.name));
-    const readingsKey = `${ci}|${cores.join(',')}`;
+    // Composition and cores in one number: a core bit per core (a hypothesis has a handful of cores).
+    let readingsKey = ci;
+    for (let k = 0; k < cores.length; k++) readingsKey = readingsKey * 2 + (cores[k] ? 1 : 0);
     let readings = readingsOf.get(readingsKey);
     if (!readings) {
       readings = peakReadings(byPeak, ci, cores, spectrum, rules);
