@@ -27,15 +27,17 @@ export interface Topology {
 /** A sorted set of distinct keys in a typed array: cheap to build and to probe (a topology has ≤ 2^n). */
 export class KeySet implements Iterable<number> {
   constructor(
-    /** Sorted, distinct in `[0, size)`. */
+    /** Sorted, distinct in `[offset, offset + size)`. */
     readonly keys: Float64Array,
     /** Set by the owner of a reused buffer (a search's view); fixed otherwise. */
     public size: number,
+    /** Where the keys start in `keys` (two sets may share one buffer). */
+    readonly offset = 0,
   ) {}
 
   has(key: number): boolean {
-    let lo = 0;
-    let hi = this.size - 1;
+    let lo = this.offset;
+    let hi = this.offset + this.size - 1;
     while (lo <= hi) {
       const m = (lo + hi) >> 1;
       const k = this.keys[m]!;
@@ -47,7 +49,7 @@ export class KeySet implements Iterable<number> {
   }
 
   *[Symbol.iterator](): Iterator<number> {
-    for (let i = 0; i < this.size; i++) yield this.keys[i]!;
+    for (let i = 0; i < this.size; i++) yield this.keys[this.offset + i]!;
   }
 }
 
@@ -596,19 +598,48 @@ class Predictor {
 
   /** A standalone copy of the current prediction (its notation is written when first read). */
   freeze(units: readonly Unit[], notation?: string): Topology {
+    // Y and B keys in one buffer; instance lists, linkages and C counts shared with every equal one (memos
+    // hold thousands of topologies, most of them alike in these).
+    const keys = new Float64Array(this.#ySize + this.#bSize);
+    keys.set(this.#yKeys.subarray(0, this.#ySize));
+    keys.set(this.#bKeys.subarray(0, this.#bSize), this.#ySize);
     return new FrozenTopology(
-      this.unit.slice(),
+      intern(this.unit),
       this.#parent.slice(),
-      this.#linkage.slice(),
-      new KeySet(this.#yKeys.slice(0, this.#ySize), this.#ySize),
-      new KeySet(this.#bKeys.slice(0, this.#bSize), this.#bSize),
+      intern(this.#linkage),
+      new KeySet(keys, this.#ySize),
+      new KeySet(keys, this.#bSize, this.#ySize),
       this.#y0Loss,
       this.#cLinked,
-      this.#cCounts.slice(),
+      internBytes(this.#cCounts),
       units,
       notation,
     );
   }
+}
+
+/** Shared read-only arrays by content (bounded: cleared past a size no rule set reaches in practice). */
+const internedLists = new Map<string, readonly (number | string)[]>();
+const internedBytes = new Map<string, Uint8Array>();
+
+function intern<T extends number | string>(list: readonly T[]): readonly T[] {
+  const key = list.join(',');
+  const hit = internedLists.get(key);
+  if (hit) return hit as readonly T[];
+  if (internedLists.size > 100_000) internedLists.clear();
+  const copy = list.slice();
+  internedLists.set(key, copy);
+  return copy;
+}
+
+function internBytes(a: Uint8Array): Uint8Array {
+  const key = a.join(',');
+  const hit = internedBytes.get(key);
+  if (hit) return hit;
+  if (internedBytes.size > 100_000) internedBytes.clear();
+  const copy = a.slice();
+  internedBytes.set(key, copy);
+  return copy;
 }
 
 /** A topology that owns its data; the canonical notation is built on first use (most are never shown). */

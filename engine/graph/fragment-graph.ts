@@ -156,6 +156,24 @@ interface SubMultisets {
 /** Sub-multisets by rule set and composition (a few KB per composition at most). */
 const subCache = new WeakMap<CompiledRuleSet, LruCache<number | string, SubMultisets>>();
 
+/** Unit count vectors by rule set and key, each stored once (callers only read them). */
+const vectors = new WeakMap<CompiledRuleSet, Map<number | string, Uint8Array>>();
+
+function internVector(v: Uint8Array, rules: CompiledRuleSet): Uint8Array {
+  let byKey = vectors.get(rules);
+  if (!byKey) {
+    byKey = new Map();
+    vectors.set(rules, byKey);
+  }
+  const key = countsKey(v);
+  const hit = byKey.get(key);
+  if (hit) return hit;
+  // Bounded by the rule set's compositions and their sub-multisets; cleared should a rule set have vast ones.
+  if (byKey.size > 200_000) byKey.clear();
+  byKey.set(key, v);
+  return v;
+}
+
 /** {@link subMultisets} with atoms and masses, memoised by the vector (compositions repeat across spectra). */
 function subMultisetsCached(units: Uint8Array, rules: CompiledRuleSet): SubMultisets {
   let cache = subCache.get(rules);
@@ -164,7 +182,8 @@ function subMultisetsCached(units: Uint8Array, rules: CompiledRuleSet): SubMulti
     subCache.set(rules, cache);
   }
   return cache.getOrSet(countsKey(units), () => {
-    const list = subMultisets(units);
+    // One shared array per distinct vector: [Hex] is a sub-multiset of thousands of compositions.
+    const list = subMultisets(units).map((v) => internVector(v, rules));
     const atoms = new Int32Array(list.length * NE);
     const mass = new Float64Array(list.length);
     const size = new Uint8Array(list.length);
