@@ -133,8 +133,11 @@ const topologyCache = new WeakMap<CompiledRuleSet, LruCache<number | string, Top
 /** Topologies enumerated per composition unless the options say otherwise. */
 const DEFAULT_MAX_TOPOLOGIES = 400;
 
-/** Compositions whose enumerated topologies are kept (each list holds up to `maxTopologies`, ~1 KB each). */
-const TOPOLOGY_CACHE_SIZE = 1_000;
+/**
+ * Compositions whose enumerated topologies are kept (a list holds up to `maxTopologies` of ~0.4 KB each). The
+ * V8 heap grows to a few times its live size, so this bound is also what keeps `peel score` under 300 MB.
+ */
+const TOPOLOGY_CACHE_SIZE = 500;
 
 function topologiesFor(
   rules: CompiledRuleSet,

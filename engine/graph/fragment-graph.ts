@@ -153,7 +153,7 @@ interface SubMultisets {
   readonly keepsCOnly: Uint8Array;
 }
 
-/** Sub-multisets by rule set and composition (a few KB per composition at most). */
+/** Sub-multisets by rule set and composition (a few KB per composition at most; bounded for memory). */
 const subCache = new WeakMap<CompiledRuleSet, LruCache<number | string, SubMultisets>>();
 
 /** Unit count vectors by rule set and key, each stored once (callers only read them). */
@@ -178,7 +178,7 @@ function internVector(v: Uint8Array, rules: CompiledRuleSet): Uint8Array {
 function subMultisetsCached(units: Uint8Array, rules: CompiledRuleSet): SubMultisets {
   let cache = subCache.get(rules);
   if (!cache) {
-    cache = new LruCache(4_000);
+    cache = new LruCache(2_000);
     subCache.set(rules, cache);
   }
   return cache.getOrSet(countsKey(units), () => {
