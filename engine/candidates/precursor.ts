@@ -285,6 +285,7 @@ export function interpretPrecursor(
           if (seen.has(k)) continue;
           seen.add(k);
           const target = mNeutral - masses[k]!;
+          if (target <= 0) continue; // a "Y0" at the bottom of the mass scale leaves no aglycone
           rules.aglyconeDecomposer.forEach(
             target,
             { ppm: 0, floorDa: tol },

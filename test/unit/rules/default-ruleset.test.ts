@@ -20,13 +20,13 @@ const loss = (section: 'residues' | 'acyls' | 'smallLosses' | 'crossRing' | 'add
 };
 
 describe('the default rule set', () => {
-  it('loads with no errors, named default 1.0.0 with a changelog entry for its version', () => {
+  it('loads with no errors, named default 1.1.0 with a changelog entry for its version', () => {
     expect(loaded.errors).toEqual([]);
     expect(rules.name).toBe('default');
-    expect(rules.version).toBe('1.0.0');
+    expect(rules.version).toBe('1.1.0');
     expect(rules.changelog.some((c) => c.version === rules.version)).toBe(true);
     expect(loaded.sha256).toMatch(/^[0-9a-f]{64}$/);
-    expect(loaded.ref).toEqual({ name: 'default', version: '1.0.0', sha256: loaded.sha256 });
+    expect(loaded.ref).toEqual({ name: 'default', version: '1.1.0', sha256: loaded.sha256 });
   });
 
   it('warns only about same-formula aglycones (ties), never about anything else', () => {

@@ -3,7 +3,8 @@ import { compareVersions, diffRuleSets, formatRuleSetDiff } from '../../../engin
 import type { RuleSet } from '../../../engine/rules/schema.js';
 import { loadDefaultRuleSet } from '../../../formats/ruleset-file.js';
 
-const base = (await loadDefaultRuleSet()).value as RuleSet;
+// Pinned at 1.0.0 so the version arithmetic below does not depend on the shipped file's current version.
+const base: RuleSet = { ...((await loadDefaultRuleSet()).value as RuleSet), version: '1.0.0' };
 const clone = (): RuleSet => structuredClone(base);
 
 describe('diffRuleSets', () => {
