@@ -137,7 +137,7 @@ const DEFAULT_MAX_TOPOLOGIES = 400;
  * Compositions whose enumerated topologies are kept (a list holds up to `maxTopologies` of ~0.4 KB each). The
  * V8 heap grows to a few times its live size, so this bound is also what keeps `peel score` under 300 MB.
  */
-const TOPOLOGY_CACHE_SIZE = 500;
+const TOPOLOGY_CACHE_SIZE = 800;
 
 function topologiesFor(
   rules: CompiledRuleSet,

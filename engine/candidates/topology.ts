@@ -605,7 +605,7 @@ class Predictor {
     keys.set(this.#bKeys.subarray(0, this.#bSize), this.#ySize);
     return new FrozenTopology(
       intern(this.unit),
-      this.#parent.slice(),
+      intern(this.#parent),
       intern(this.#linkage),
       new KeySet(keys, this.#ySize),
       new KeySet(keys, this.#bSize, this.#ySize),

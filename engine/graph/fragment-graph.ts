@@ -178,7 +178,7 @@ function internVector(v: Uint8Array, rules: CompiledRuleSet): Uint8Array {
 function subMultisetsCached(units: Uint8Array, rules: CompiledRuleSet): SubMultisets {
   let cache = subCache.get(rules);
   if (!cache) {
-    cache = new LruCache(2_000);
+    cache = new LruCache(3_000);
     subCache.set(rules, cache);
   }
   return cache.getOrSet(countsKey(units), () => {
