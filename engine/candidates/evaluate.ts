@@ -359,7 +359,19 @@ function peakReadings(
       }
     }
     if (list.length) {
-      list.sort((x, y) => y.weight - x.weight || x.kind - y.kind);
+      // Best weight first, then by kind; stable (insertion sort: a peak has a few readings).
+      for (let a = 1; a < list.length; a++) {
+        const x = list[a]!;
+        let b = a - 1;
+        while (
+          b >= 0 &&
+          (list[b]!.weight < x.weight || (list[b]!.weight === x.weight && list[b]!.kind > x.kind))
+        ) {
+          list[b + 1] = list[b]!;
+          b--;
+        }
+        list[b + 1] = x;
+      }
       readings.push({ peak, intensity: spectrum.intensity[peak]!, list });
     }
   }

@@ -597,21 +597,21 @@ class Predictor {
   }
 
   /** A standalone copy of the current prediction (its notation is written when first read). */
-  freeze(units: readonly Unit[], notation?: string): Topology {
-    // Y and B keys in one buffer; instance lists, linkages and C counts shared with every equal one (memos
-    // hold thousands of topologies, most of them alike in these).
+  freeze(units: readonly Unit[], notation?: string, share = false): Topology {
+    // Y and B keys in one buffer; with `share`, instance lists, linkages and C counts are shared with every
+    // equal one (memos hold thousands of topologies, most of them alike in these).
     const keys = new Float64Array(this.#ySize + this.#bSize);
     keys.set(this.#yKeys.subarray(0, this.#ySize));
     keys.set(this.#bKeys.subarray(0, this.#bSize), this.#ySize);
     return new FrozenTopology(
-      intern(this.unit),
-      intern(this.#parent),
-      intern(this.#linkage),
+      share ? intern(this.unit) : this.unit.slice(),
+      share ? intern(this.#parent) : this.#parent.slice(),
+      share ? intern(this.#linkage) : this.#linkage.slice(),
       new KeySet(keys, this.#ySize),
       new KeySet(keys, this.#bSize, this.#ySize),
       this.#y0Loss,
       this.#cLinked,
-      internBytes(this.#cCounts),
+      share ? internBytes(this.#cCounts) : this.#cCounts.slice(),
       units,
       notation,
     );
@@ -718,5 +718,6 @@ export function makeTopology(
     predictors.set(key, p);
   }
   p.setUnits(unit).predict(parent, linkage);
-  return p.freeze([], notation);
+  // Built for the memos: arrays equal to those of other topologies are shared.
+  return p.freeze([], notation, true);
 }
