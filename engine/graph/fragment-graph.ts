@@ -4,7 +4,7 @@ import { fragmentDelta } from '../candidates/precursor.js';
 import { countsKey, LruCache } from '../candidates/cache.js';
 import type { CompiledRuleSet } from '../rules/compile.js';
 import { type CleanSpectrum, tolDa } from '../spectrum/clean.js';
-import { buildGraph, type FragGraph } from '../tree/graph.js';
+import type { FragGraph } from '../tree/graph.js';
 import { type Counts, countsMass, countsRdbe, formulaKey, isSubCounts, NE } from './counts.js';
 
 /**
@@ -582,8 +582,14 @@ export function finishGraph(
     for (let i = 1; i < colour.length; i++) if (colour[i] === pc) colour[i] = 0;
   }
 
-  const edges: { from: number; to: number; weight: number; kind: LossKind }[] = [];
-  for (let v = 1; v < ordered.length; v++) {
+  // Edges come out child by child, parents ascending: already the CSR order of incoming edges.
+  const n = ordered.length;
+  const inStart = new Int32Array(n + 1);
+  const inFrom: number[] = [];
+  const inWeight: number[] = [];
+  const edgeKind: LossKind[] = [];
+  for (let v = 1; v < n; v++) {
+    inStart[v] = inFrom.length;
     const child = ordered[v]!;
     const nodeScore = nodeTerm(child, spectrum, base, options, w.intensity, w.massError);
     for (let u = 0; u < v; u++) {
@@ -591,14 +597,23 @@ export function finishGraph(
       if (colour[u] === colour[v]) continue;
       const best = edgePrior(parent, child, u === 0, rules, w);
       if (best === undefined) continue;
-      edges.push({ from: u, to: v, weight: best.prior + nodeScore, kind: best.kind });
+      inFrom.push(u);
+      inWeight.push(best.prior + nodeScore);
+      edgeKind.push(best.kind);
     }
   }
-  const graph = buildGraph(colour, edges);
-  // Kinds in CSR order (buildGraph keeps the order of edges per child).
-  const edgeKind: LossKind[] = new Array(edges.length);
-  const fill = graph.inStart.slice(0, ordered.length);
-  for (const e of edges) edgeKind[fill[e.to]!++] = e.kind;
+  inStart[n] = inFrom.length;
+  const col = Int32Array.from(colour);
+  let colourCount = 0;
+  for (const c of col) colourCount = Math.max(colourCount, c + 1);
+  const graph: FragGraph = {
+    nodeCount: n,
+    colour: col,
+    colourCount,
+    inStart,
+    inFrom: Int32Array.from(inFrom),
+    inWeight: Float64Array.from(inWeight),
+  };
   return { graph, nodes: ordered, compositions: comps, edgeKind, cores };
 }
 
