@@ -141,25 +141,32 @@ function comboLists(rules: CompiledRuleSet, polarity: 'positive' | 'negative'): 
   return lists;
 }
 
-/** The sub-multisets of a composition with the atoms and mass each one weighs. */
-interface SubMultisets {
-  readonly list: Uint8Array[];
-  /** Atoms of sub-multiset i at `[i * NE, (i + 1) * NE)`. */
+/** A unit count vector with what it weighs; one record per distinct vector, shared by every composition. */
+interface UnitVector {
+  readonly units: Uint8Array;
   readonly atoms: Int32Array;
-  readonly mass: Float64Array;
-  /** Units in each. */
-  readonly size: Uint8Array;
-  /** 1 when what the composition keeps after losing it is C-linkable residues only (cross-ring ions). */
+  readonly mass: number;
+  /** Units in it. */
+  readonly size: number;
+}
+
+/** The sub-multisets of a composition, smallest first. */
+interface SubMultisets {
+  readonly list: readonly UnitVector[];
+  /** 1 when what the composition keeps after losing sub-multiset i is C-linkable residues only (cross-ring ions). */
   readonly keepsCOnly: Uint8Array;
 }
 
-/** Sub-multisets by rule set and composition (a few KB per composition at most; bounded for memory). */
+/**
+ * Sub-multisets by rule set and composition. An entry is a list of shared records and a byte each (~0.3 KB),
+ * so every composition of the rule set fits.
+ */
 const subCache = new WeakMap<CompiledRuleSet, LruCache<number | string, SubMultisets>>();
 
-/** Unit count vectors by rule set and key, each stored once (callers only read them). */
-const vectors = new WeakMap<CompiledRuleSet, Map<number | string, Uint8Array>>();
+/** Unit vectors by rule set and key, each stored once (callers only read them). */
+const vectors = new WeakMap<CompiledRuleSet, Map<number | string, UnitVector>>();
 
-function internVector(v: Uint8Array, rules: CompiledRuleSet): Uint8Array {
+function internVector(v: Uint8Array, rules: CompiledRuleSet): UnitVector {
   let byKey = vectors.get(rules);
   if (!byKey) {
     byKey = new Map();
@@ -168,39 +175,39 @@ function internVector(v: Uint8Array, rules: CompiledRuleSet): Uint8Array {
   const key = countsKey(v);
   const hit = byKey.get(key);
   if (hit) return hit;
+  const atoms = new Int32Array(NE);
+  let size = 0;
+  for (let u = 0; u < v.length; u++) {
+    if (!v[u]) continue;
+    size += v[u]!;
+    for (let e = 0; e < NE; e++) atoms[e]! += v[u]! * rules.units[u]!.counts[e]!;
+  }
+  const record: UnitVector = { units: v, atoms, mass: countsMass(atoms), size };
   // Bounded by the rule set's compositions and their sub-multisets; cleared should a rule set have vast ones.
   if (byKey.size > 200_000) byKey.clear();
-  byKey.set(key, v);
-  return v;
+  byKey.set(key, record);
+  return record;
 }
 
 /** {@link subMultisets} with atoms and masses, memoised by the vector (compositions repeat across spectra). */
 function subMultisetsCached(units: Uint8Array, rules: CompiledRuleSet): SubMultisets {
   let cache = subCache.get(rules);
   if (!cache) {
-    cache = new LruCache(3_000);
+    cache = new LruCache(SUB_CACHE_SIZE);
     subCache.set(rules, cache);
   }
   return cache.getOrSet(countsKey(units), () => {
-    // One shared array per distinct vector: [Hex] is a sub-multiset of thousands of compositions.
+    // One shared record per distinct vector: [Hex] is a sub-multiset of thousands of compositions.
     const list = subMultisets(units).map((v) => internVector(v, rules));
-    const atoms = new Int32Array(list.length * NE);
-    const mass = new Float64Array(list.length);
-    const size = new Uint8Array(list.length);
-    const keepsCOnly = new Uint8Array(list.length);
-    list.forEach((removed, i) => {
-      keepsCOnly[i] = keepsOnlyCLinkable(units, removed, rules.units) ? 1 : 0;
-      const lost = atoms.subarray(i * NE, (i + 1) * NE);
-      for (let u = 0; u < removed.length; u++) {
-        if (!removed[u]) continue;
-        size[i]! += removed[u]!;
-        for (let e = 0; e < NE; e++) lost[e]! += removed[u]! * rules.units[u]!.counts[e]!;
-      }
-      mass[i] = countsMass(lost);
-    });
-    return { list, atoms, mass, size, keepsCOnly };
+    const keepsCOnly = Uint8Array.from(list, (r) =>
+      keepsOnlyCLinkable(units, r.units, rules.units) ? 1 : 0,
+    );
+    return { list, keepsCOnly };
   });
 }
+
+/** Compositions whose sub-multisets are kept: more than the default rule set has. */
+const SUB_CACHE_SIZE = 10_000;
 
 /** Sub-multisets of a unit count vector, the empty one first. */
 export function subMultisets(units: Uint8Array): Uint8Array[] {
@@ -371,10 +378,11 @@ export function matchHypothesis(
     const total = sum(compUnits);
     const subs = subMultisetsCached(compUnits, rules);
     for (let si = 0; si < subs.list.length; si++) {
-      const removed = subs.list[si]!;
-      const lostAt = si * NE; // this sub-multiset's atoms in subs.atoms
-      const removedCount = subs.size[si]!;
-      const lostMass = subs.mass[si]!;
+      const sub = subs.list[si]!;
+      const removed = sub.units;
+      const lostAtoms = sub.atoms;
+      const removedCount = sub.size;
+      const lostMass = sub.mass;
       const ladderEnd = removedCount === total || removedCount === 0;
       // Radical Y ions (H• lost too) only on the bare aglycone, in negative mode.
       const maxRadical = radicalOk && removedCount === total ? 1 : 0;
@@ -461,7 +469,7 @@ export function matchHypothesis(
           const combo = rules.lossCombos[k]!;
           let ok = true;
           for (let e = 0; e < NE; e++) {
-            tmp[e] = core.counts[e]! - subs.atoms[lostAt + e]! - combo.counts[e]! - (e === 1 ? radical : 0);
+            tmp[e] = core.counts[e]! - lostAtoms[e]! - combo.counts[e]! - (e === 1 ? radical : 0);
             if (tmp[e]! < 0) ok = false;
           }
           if (!ok) continue;
@@ -478,9 +486,9 @@ export function matchHypothesis(
     if (options.polarity === 'positive') {
       // Oxonium ions of one or two residues and acylium ions, [units + H]+; oxonium ions also − H2O.
       // Sub-multisets come smallest first: those of one or two units lead the list.
-      for (let si = 0; si < subs.list.length && subs.size[si]! <= 2; si++) {
-        const part = subs.list[si]!;
-        const n = subs.size[si]!;
+      for (let si = 0; si < subs.list.length && subs.list[si]!.size <= 2; si++) {
+        const part = subs.list[si]!.units;
+        const n = subs.list[si]!.size;
         if (n === 0) continue;
         let cation = true;
         let acyls = 0;
@@ -490,7 +498,7 @@ export function matchHypothesis(
           if (units[u]!.kind === 'acyl') acyls += part[u]!;
         }
         if (!cation || (acyls > 0 && n > 1)) continue;
-        for (let e = 0; e < NE; e++) tmp[e] = subs.atoms[si * NE + e]!;
+        for (let e = 0; e < NE; e++) tmp[e] = subs.list[si]!.atoms[e]!;
         tmp[1]! += 1;
         for (let water = 0; water <= (acyls > 0 ? 0 : 1); water++) {
           if (water) {
