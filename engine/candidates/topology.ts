@@ -1,3 +1,4 @@
+import { countsKey } from './cache.js';
 import type { Unit } from '../rules/compile.js';
 
 /**
@@ -604,9 +605,9 @@ class Predictor {
     keys.set(this.#yKeys.subarray(0, this.#ySize));
     keys.set(this.#bKeys.subarray(0, this.#bSize), this.#ySize);
     return new FrozenTopology(
-      share ? intern(this.unit) : this.unit.slice(),
-      share ? intern(this.#parent) : this.#parent.slice(),
-      share ? intern(this.#linkage) : this.#linkage.slice(),
+      share ? intern(this.unit, 1) : this.unit.slice(),
+      share ? intern(this.#parent, 2) : this.#parent.slice(),
+      share ? intern(this.#linkage, 3) : this.#linkage.slice(),
       new KeySet(keys, this.#ySize),
       new KeySet(keys, this.#bSize, this.#ySize),
       this.#y0Loss,
@@ -619,11 +620,34 @@ class Predictor {
 }
 
 /** Shared read-only arrays by content (bounded: cleared past a size no rule set reaches in practice). */
-const internedLists = new Map<string, readonly (number | string)[]>();
-const internedBytes = new Map<string, Uint8Array>();
+const internedLists = new Map<number | string, readonly (number | string)[]>();
+const internedBytes = new Map<number | string, Uint8Array>();
 
-function intern<T extends number | string>(list: readonly T[]): readonly T[] {
-  const key = list.join(',');
+/** Digit of a list entry for {@link listKey}: unit indices and parents (≥ −1) shifted up, linkages coded. */
+function digit(x: number | string): number {
+  return typeof x === 'number' ? x + 2 : x === 'O' ? 1 : x === 'C' ? 2 : 3;
+}
+
+/**
+ * A key for a short list of small entries: a number (base-16 digits, none zero, so lengths differ) when every
+ * digit is below 16 and the list fits 13 digits, else its text. Kind tags keep unit, parent and linkage lists
+ * apart.
+ */
+function listKey(list: ArrayLike<number | string>, kind: number): number | string {
+  if (list.length <= 12) {
+    let k = kind;
+    for (let i = 0; i < list.length; i++) {
+      const d = digit(list[i]!);
+      if (d >= 16) return `${kind}:${Array.prototype.join.call(list, ',')}`;
+      k = k * 16 + d;
+    }
+    return k;
+  }
+  return `${kind}:${Array.prototype.join.call(list, ',')}`;
+}
+
+function intern<T extends number | string>(list: readonly T[], kind: number): readonly T[] {
+  const key = listKey(list, kind);
   const hit = internedLists.get(key);
   if (hit) return hit as readonly T[];
   if (internedLists.size > 100_000) internedLists.clear();
@@ -633,7 +657,7 @@ function intern<T extends number | string>(list: readonly T[]): readonly T[] {
 }
 
 function internBytes(a: Uint8Array): Uint8Array {
-  const key = a.join(',');
+  const key = countsKey(a);
   const hit = internedBytes.get(key);
   if (hit) return hit;
   if (internedBytes.size > 100_000) internedBytes.clear();
