@@ -126,9 +126,30 @@ export function buildAnnotatedResult(
 
   const limit = rules.limits.maxCandidates;
   const formulaCount = new Set(ranked.map((r) => r.c.hypothesis.key)).size;
+  // One candidate per structure up to its stacking (precursor formula, aglycone, composition): its best
+  // stacking leads and the other stackings that fit ride along, so the ranks hold distinct structures rather
+  // than one composition stacked several ways. User-supplied candidates always stand on their own.
+  const groups: { lead: Ranked; others: Ranked[] }[] = [];
+  const byStructure = new Map<string, { lead: Ranked; others: Ranked[] }>();
+  for (const r of ranked) {
+    if (user.userKeys.size > 0 && user.userKeys.has(candidateKey(r.c))) {
+      groups.push({ lead: r, others: [] });
+      continue;
+    }
+    const key = structureKey(r.c);
+    const g = byStructure.get(key);
+    if (g) g.others.push(r);
+    else {
+      const fresh = { lead: r, others: [] };
+      byStructure.set(key, fresh);
+      groups.push(fresh);
+    }
+  }
   const candidates: CandidateResult[] = [];
-  for (let i = 0; i < ranked.length; i++) {
-    const r = ranked[i]!;
+  let stackingTie = false;
+  for (let i = 0; i < groups.length; i++) {
+    const r = groups[i]!.lead;
+    const others = groups[i]!.others;
     // Past the limit, only user-supplied candidates are still reported (with their true rank).
     if (candidates.length >= limit) {
       if (user.userKeys.size === 0) break;
@@ -139,7 +160,7 @@ export function buildAnnotatedResult(
     if (note && i === 0) cautions.push(note);
     const agl = c.interpretation.aglycone;
     const aglClass = agl.kind === 'library' ? r.classes[r.names.indexOf(primary)] : undefined;
-    const tied = i > 0 && Math.abs(ranked[i - 1]!.c.evidence - c.evidence) < w.tieMargin;
+    const tied = i > 0 && Math.abs(groups[i - 1]!.lead.c.evidence - c.evidence) < w.tieMargin;
     const notes: string[] = [];
     const userLabel = user.userKeys.size > 0 ? user.userKeys.get(candidateKey(c)) : undefined;
     if (userLabel !== undefined) notes.push(`User-supplied candidate: ${userLabel}.`);
@@ -156,6 +177,7 @@ export function buildAnnotatedResult(
       notes.push(`Predicted but not observed: ${names.join(', ')}.`);
     }
     const level = confidence(c, formulaCount, agl.kind === 'library', w.minExplained);
+    const aglText = agl.kind === 'library' ? primary : `<${countsString(agl.counts)}>`;
     candidates.push({
       rank: i + 1,
       aglycone: {
@@ -165,7 +187,20 @@ export function buildAnnotatedResult(
         alternatives,
       },
       substituents: substituents(c, compiled),
-      topology: `${agl.kind === 'library' ? primary : `<${countsString(agl.counts)}>`}${c.topology.notation}`,
+      topology: `${aglText}${c.topology.notation}`,
+      ...(others.length
+        ? {
+            otherTopologies: others.slice(0, MAX_OTHER_TOPOLOGIES).map((o) => {
+              const tiedWithBest = Math.abs(o.c.evidence - c.evidence) < w.tieMargin;
+              if (tiedWithBest) stackingTie = true;
+              return {
+                topology: `${aglText}${o.c.topology.notation}`,
+                score: round(o.c.score, 3),
+                ...(tiedWithBest ? { tiedWithBest: true } : {}),
+              };
+            }),
+          }
+        : {}),
       ionType: ion,
       formula: countsString(c.hypothesis.counts, c.hypothesis.charge),
       ppm: round(c.hypothesis.ppm, 2),
@@ -201,6 +236,11 @@ export function buildAnnotatedResult(
   if (candidates.some((c) => c.tiedWithPrevious) || candidates[1]?.tiedWithPrevious) {
     cautions.push('Some candidates are tied: the spectrum does not separate them.');
   }
+  if (stackingTie) {
+    cautions.push(
+      'The stacking of some candidates is not settled: other stackings (listed with them) fit the spectrum as well.',
+    );
+  }
   return {
     id: spectrum.id,
     status: 'annotated',
@@ -213,6 +253,22 @@ export function buildAnnotatedResult(
     tree: reportTree(best.solved, clean, compiled),
     cautions: [...STANDARD_CAUTIONS, ...cautions],
   };
+}
+
+/** Other stackings listed with a candidate at most. */
+const MAX_OTHER_TOPOLOGIES = 4;
+
+/**
+ * Identity of a candidate's structure up to its stacking: precursor formula, Y0 formula, composition and which
+ * residues are C-linked.
+ */
+function structureKey(c: EvaluatedCandidate): string {
+  const comp =
+    c.interpretation.compositionIndex >= 0
+      ? c.interpretation.compositionIndex
+      : c.interpretation.composition.units.join(',');
+  // C- and O-glycosides of one composition are different structures (and different classes): kept apart.
+  return `${c.hypothesis.key}|${formulaKey(c.y0.counts, c.y0.charge)}|${comp}|${c.topology.cCounts.join('')}`;
 }
 
 /** Whether two candidates are one structure (what {@link candidateKey} identifies). */

@@ -26,8 +26,22 @@ export const CandidateResultSchema = z.object({
     alternatives: z.array(z.string()),
   }),
   substituents: z.array(SubstituentSchema),
-  /** How residues are stacked, in Peel's stacking notation (docs/stacking-notation.md). */
+  /** How residues are stacked, in Peel's stacking notation (docs/stacking-notation.md): the best-scoring stacking. */
   topology: z.string(),
+  /**
+   * Other stackings of the same aglycone and composition that also fit, best first with their scores (at most
+   * four). The spectrum often cannot order them: Y ions fix what can be lost, not where it sat.
+   */
+  otherTopologies: z
+    .array(
+      z.object({
+        topology: z.string(),
+        score: z.number(),
+        /** Whether the spectrum supports it as well as the best stacking (a tie the data cannot break). */
+        tiedWithBest: z.boolean().optional(),
+      }),
+    )
+    .optional(),
   /** Ion type of this reading of the precursor (same-formula alternatives may differ: [M]+ vs [M+H]+). */
   ionType: z.string().optional(),
   formula: z.string(),

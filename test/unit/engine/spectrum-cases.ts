@@ -103,4 +103,5 @@ export function linkagesOf(c: CandidateResult): Record<string, number> {
 export const namesOf = (c: CandidateResult): string[] => [c.aglycone.name, ...c.aglycone.alternatives];
 
 /** The stacking notation of a candidate without its aglycone name. */
-export const stackingOf = (c: CandidateResult): string => c.topology.slice(c.topology.indexOf('['));
+export const stackingOf = (c: Pick<CandidateResult, 'topology'>): string =>
+  c.topology.slice(c.topology.indexOf('['));
