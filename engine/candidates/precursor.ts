@@ -200,18 +200,28 @@ export function interpretPrecursor(
     if (polarity === 'negative' && hasPeak(spectrum, (y0 - H_MASS - shift) / az, options)) return true;
     // Cross-ring losses of the C-linkable residues the composition holds (a flat table: no pointer chase).
     if (!hasCLinkable[compIndex]) return false;
+    let wholeCross = 0;
     for (let k = 0; k < crossOnC.length; k++) {
       const x = crossOnC[k]!;
       const r = rules.crossRingResidue[x]!;
       if (compositionUnits[compIndex * nUnits + r]! < 1) continue;
+      // On the aglycone with that residue alone (a mono-C-glycoside after its O-linked units are gone) ...
       const ion1 = y0 + rules.units[r]!.mass - rules.crossRingMasses[x]!;
       if (
         hasPeak(spectrum, (ion1 - shift) / az, options) ||
         hasPeak(spectrum, (ion1 - WATER - shift) / az, options)
       )
         return true;
+      // ... or on the whole molecule (di-C-glycosides keep both sugars: their cross-ring ions start there).
+      // A single such peak is often a coincidence, so two different cleavages are asked for.
+      const ion2 = y0 + masses[compIndex]! - rules.crossRingMasses[x]!;
+      if (
+        hasPeak(spectrum, (ion2 - shift) / az, options) ||
+        hasPeak(spectrum, (ion2 - WATER - shift) / az, options)
+      )
+        wholeCross++;
     }
-    return false;
+    return wholeCross >= 2;
   };
 
   const add = (ion: IonType, agl: AglyconeChoice, compIndex: number, aglCounts: Counts) => {
