@@ -77,8 +77,12 @@ export function buildAnnotatedResult(
     for (const c of s.candidates) {
       const agl = c.interpretation.aglycone;
       const y0Key = formulaKey(c.y0.counts, c.y0.charge);
+      // Always a fraction (never a small integer), so the optimised code sees one kind of number.
       const bucket =
-        (c.hypothesis.key % 0x100000) * 0x100000 + (y0Key % 0x100000) + c.interpretation.compositionIndex;
+        (c.hypothesis.key % 0x100000) * 0x100000 +
+        (y0Key % 0x100000) +
+        c.interpretation.compositionIndex +
+        0.5;
       let list = buckets.get(bucket);
       if (!list) {
         list = [];
@@ -155,83 +159,12 @@ export function buildAnnotatedResult(
       if (user.userKeys.size === 0) break;
       if (!user.userKeys.has(candidateKey(r.c))) continue;
     }
-    const c = r.c;
-    const { primary, ion, alternatives, note } = chooseName(r, spectrum);
-    if (note && i === 0) cautions.push(note);
-    const agl = c.interpretation.aglycone;
-    const aglClass = agl.kind === 'library' ? r.classes[r.names.indexOf(primary)] : undefined;
-    const tied = i > 0 && Math.abs(groups[i - 1]!.lead.c.evidence - c.evidence) < w.tieMargin;
-    const notes: string[] = [];
-    const userLabel = user.userKeys.size > 0 ? user.userKeys.get(candidateKey(c)) : undefined;
-    if (userLabel !== undefined) notes.push(`User-supplied candidate: ${userLabel}.`);
-    if (alternatives.length > 0) {
-      notes.push(`Same ion formula as ${alternatives.join(', ')}: MS/MS cannot tell these aglycones apart.`);
-    }
-    const missing = candidateMissing(c);
-    if (missing.length > 0) {
-      const names = missing
-        .slice(0, 6)
-        .map((m) =>
-          m === 'X' ? 'cross-ring X ions' : m === 'Y0' ? 'Y0' : `Y(−${describeKey(m, compiled)})`,
-        );
-      notes.push(`Predicted but not observed: ${names.join(', ')}.`);
-    }
-    const level = confidence(c, formulaCount, agl.kind === 'library', w.minExplained);
-    const aglText = agl.kind === 'library' ? primary : `<${countsString(agl.counts)}>`;
-    candidates.push({
-      rank: i + 1,
-      aglycone: {
-        name: primary,
-        formula: countsString(c.y0.counts, c.y0.charge),
-        ...(aglClass ? { class: aglClass } : {}),
-        alternatives,
-      },
-      substituents: substituents(c, compiled),
-      topology: `${aglText}${c.topology.notation}`,
-      ...(others.length
-        ? {
-            otherTopologies: others.slice(0, MAX_OTHER_TOPOLOGIES).map((o) => {
-              const tiedWithBest = Math.abs(o.c.evidence - c.evidence) < w.tieMargin;
-              if (tiedWithBest) stackingTie = true;
-              return {
-                topology: `${aglText}${o.c.topology.notation}`,
-                score: round(o.c.score, 3),
-                ...(tiedWithBest ? { tiedWithBest: true } : {}),
-              };
-            }),
-          }
-        : {}),
-      ionType: ion,
-      formula: countsString(c.hypothesis.counts, c.hypothesis.charge),
-      ppm: round(c.hypothesis.ppm, 2),
-      explainedIntensity: round(c.explained, 4),
-      score: round(c.score, 3),
-      confidenceLevel: level,
-      ...(tied ? { tiedWithPrevious: true } : {}),
-      source: userLabel !== undefined ? 'user' : 'rules',
-      matchedPeaks: [
-        // The precursor ion left in the MS2 spectrum counts as explained: list it too.
-        ...(clean.precursorIndex >= 0
-          ? [
-              {
-                mz: round(clean.mz[clean.precursorIndex]!, 5),
-                intensity: round(clean.intensity[clean.precursorIndex]!, 4),
-                label: 'precursor',
-                formula: countsString(c.hypothesis.counts, c.hypothesis.charge),
-                ppm: round(((clean.mz[clean.precursorIndex]! - c.hypothesis.mz) / c.hypothesis.mz) * 1e6, 2),
-              },
-            ]
-          : []),
-        ...candidateMatches(c, compiled).map((m) => ({
-          mz: round(clean.mz[m.node.peak]!, 5),
-          intensity: round(clean.intensity[m.node.peak]!, 4),
-          label: m.label,
-          formula: countsString(m.node.counts, m.node.charge),
-          ppm: round(m.node.ppm, 2),
-        })),
-      ].sort((a, b) => b.mz - a.mz),
-      ...(notes.length ? { notes } : {}),
-    });
+    const tied = i > 0 && Math.abs(groups[i - 1]!.lead.c.evidence - r.c.evidence) < w.tieMargin;
+    const userLabel = user.userKeys.size > 0 ? user.userKeys.get(candidateKey(r.c)) : undefined;
+    const built = candidateResult(r, others, i + 1, tied, userLabel, formulaCount, spectrum, clean, compiled);
+    if (built.note && i === 0) cautions.push(built.note);
+    if (built.stackingTie) stackingTie = true;
+    candidates.push(built.result);
   }
   if (candidates.some((c) => c.tiedWithPrevious) || candidates[1]?.tiedWithPrevious) {
     cautions.push('Some candidates are tied: the spectrum does not separate them.');
@@ -279,6 +212,95 @@ function sameCandidate(a: EvaluatedCandidate, b: EvaluatedCandidate): boolean {
   const ub = b.interpretation.composition.units;
   for (let u = 0; u < ua.length; u++) if (ua[u] !== ub[u]) return false;
   return true;
+}
+
+/** One candidate of the result: names, substituents, stackings, matched peaks and notes. */
+function candidateResult(
+  r: Ranked,
+  others: readonly Ranked[],
+  rank: number,
+  tied: boolean,
+  userLabel: string | undefined,
+  formulaCount: number,
+  spectrum: Spectrum,
+  clean: CleanSpectrum,
+  compiled: CompiledRuleSet,
+): { result: CandidateResult; note: string | undefined; stackingTie: boolean } {
+  const c = r.c;
+  const w = compiled.rules.scoring;
+  const { primary, ion, alternatives, note } = chooseName(r, spectrum);
+  let stackingTie = false;
+  const agl = c.interpretation.aglycone;
+  const aglClass = agl.kind === 'library' ? r.classes[r.names.indexOf(primary)] : undefined;
+  const notes: string[] = [];
+  if (userLabel !== undefined) notes.push(`User-supplied candidate: ${userLabel}.`);
+  if (alternatives.length > 0) {
+    notes.push(`Same ion formula as ${alternatives.join(', ')}: MS/MS cannot tell these aglycones apart.`);
+  }
+  const missing = candidateMissing(c);
+  if (missing.length > 0) {
+    const names = missing
+      .slice(0, 6)
+      .map((m) => (m === 'X' ? 'cross-ring X ions' : m === 'Y0' ? 'Y0' : `Y(−${describeKey(m, compiled)})`));
+    notes.push(`Predicted but not observed: ${names.join(', ')}.`);
+  }
+  const level = confidence(c, formulaCount, agl.kind === 'library', w.minExplained);
+  const aglText = agl.kind === 'library' ? primary : `<${countsString(agl.counts)}>`;
+  const result: CandidateResult = {
+    rank,
+    aglycone: {
+      name: primary,
+      formula: countsString(c.y0.counts, c.y0.charge),
+      ...(aglClass ? { class: aglClass } : {}),
+      alternatives,
+    },
+    substituents: substituents(c, compiled),
+    topology: `${aglText}${c.topology.notation}`,
+    ...(others.length
+      ? {
+          otherTopologies: others.slice(0, MAX_OTHER_TOPOLOGIES).map((o) => {
+            const tiedWithBest = Math.abs(o.c.evidence - c.evidence) < w.tieMargin;
+            if (tiedWithBest) stackingTie = true;
+            return {
+              topology: `${aglText}${o.c.topology.notation}`,
+              score: round(o.c.score, 3),
+              ...(tiedWithBest ? { tiedWithBest: true } : {}),
+            };
+          }),
+        }
+      : {}),
+    ionType: ion,
+    formula: countsString(c.hypothesis.counts, c.hypothesis.charge),
+    ppm: round(c.hypothesis.ppm, 2),
+    explainedIntensity: round(c.explained, 4),
+    score: round(c.score, 3),
+    confidenceLevel: level,
+    ...(tied ? { tiedWithPrevious: true } : {}),
+    source: userLabel !== undefined ? 'user' : 'rules',
+    matchedPeaks: [
+      // The precursor ion left in the MS2 spectrum counts as explained: list it too.
+      ...(clean.precursorIndex >= 0
+        ? [
+            {
+              mz: round(clean.mz[clean.precursorIndex]!, 5),
+              intensity: round(clean.intensity[clean.precursorIndex]!, 4),
+              label: 'precursor',
+              formula: countsString(c.hypothesis.counts, c.hypothesis.charge),
+              ppm: round(((clean.mz[clean.precursorIndex]! - c.hypothesis.mz) / c.hypothesis.mz) * 1e6, 2),
+            },
+          ]
+        : []),
+      ...candidateMatches(c, compiled).map((m) => ({
+        mz: round(clean.mz[m.node.peak]!, 5),
+        intensity: round(clean.intensity[m.node.peak]!, 4),
+        label: m.label,
+        formula: countsString(m.node.counts, m.node.charge),
+        ppm: round(m.node.ppm, 2),
+      })),
+    ].sort((a, b) => b.mz - a.mz),
+    ...(notes.length ? { notes } : {}),
+  };
+  return { result, note, stackingTie };
 }
 
 function round(x: number, digits: number): number {
