@@ -194,7 +194,8 @@ export function enumerateTopologies(
           const notation = canonical(u2, p2, link, units);
           if (seenText.has(notation)) continue;
           seenText.add(notation);
-          out.push(makeTopology(u2, p2, link, notation, composition.length));
+          // The notation served for de-duplication only; the memo's copy writes its own when first shown.
+          out.push(memoTopology(u2, p2, link, units));
         }
         return;
       }
@@ -744,4 +745,21 @@ export function makeTopology(
   p.setUnits(unit).predict(parent, linkage);
   // Built for the memos: arrays equal to those of other topologies are shared.
   return p.freeze([], notation, true);
+}
+
+/** A topology for the memos: shared arrays, notation written on first use (most are never shown). */
+function memoTopology(
+  unit: number[],
+  parent: number[],
+  linkage: Linkage[],
+  units: readonly Unit[],
+): Topology {
+  const key = unit.length * 1024 + units.length;
+  let p = predictors.get(key);
+  if (!p) {
+    p = new Predictor(unit.length, units.length);
+    predictors.set(key, p);
+  }
+  p.setUnits(unit).predict(parent, linkage);
+  return p.freeze(units, undefined, true);
 }
