@@ -201,7 +201,11 @@ export function stickSpectrumSvg(
 function candidateTable(r: SpectrumResult): string {
   const rows = r.candidates.slice(0, 5).map((c) => {
     const alt = c.aglycone.alternatives.length > 0 ? c.aglycone.alternatives.join(', ') : '';
-    return `<tr><td class="num">${c.rank}${c.tiedWithPrevious ? ' =' : ''}</td><td class="mono">${esc(c.topology)}</td><td>${esc(alt)}</td><td>${esc(c.ionType ?? r.precursor?.ionType ?? '')}</td><td class="mono">${esc(c.formula)}</td><td class="num">${pct(c.explainedIntensity)}</td><td class="num">${num(c.score, 2)}</td><td class="num">${c.confidenceLevel}</td></tr>`;
+    const others = (c.otherTopologies ?? [])
+      .map((o) => `${esc(o.topology)}${o.tiedWithBest ? ' =' : ''}`)
+      .join('<br>');
+    const otherCell = others ? `<div class="meta">also fits: ${others}</div>` : '';
+    return `<tr><td class="num">${c.rank}${c.tiedWithPrevious ? ' =' : ''}</td><td class="mono">${esc(c.topology)}${otherCell}</td><td>${esc(alt)}</td><td>${esc(c.ionType ?? r.precursor?.ionType ?? '')}</td><td class="mono">${esc(c.formula)}</td><td class="num">${pct(c.explainedIntensity)}</td><td class="num">${num(c.score, 2)}</td><td class="num">${c.confidenceLevel}</td></tr>`;
   });
   const more =
     r.candidates.length > 5
@@ -319,7 +323,8 @@ unassigned, <strong>${t.errors}</strong> error${t.errors === 1 ? '' : 's'}.</p>
 ${selfCheck}
 ${summaryTable(input)}
 <p class="legend">(+N): N other library aglycones have the same ion formula — MS/MS cannot tell them apart; hover to
-see them. Tie "=": the next-ranked candidate scores the same. Level: confidence on the Schymanski et al. 2014 scale
+see them. Tie "=": the next-ranked candidate scores the same; "also fits" lists other stackings of the same residues
+("=" when the spectrum supports them as well). Level: confidence on the Schymanski et al. 2014 scale
 (1 best; level 1 needs a reference standard). Explained: share of the spectrum's total intensity the best candidate
 explains.</p>
 

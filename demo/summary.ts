@@ -177,7 +177,7 @@ export function formatSummaryTable(rows: readonly SummaryRow[], withTruth: boole
 export function formatTally(t: SummaryTally, withTruth: boolean): string[] {
   const lines = [
     '(+N): N other library aglycones have the same ion formula; MS/MS cannot tell them apart (all are in the results).',
-    "tie '=': the next-ranked candidate scores the same, e.g. two stackings of the same residues.",
+    "tie '=': the next-ranked candidate scores the same (e.g. isomeric compositions); other stackings of a candidate's residues are listed with it in the results files.",
     'level: confidence on the Schymanski et al. 2014 scale (1 best; level 1 needs a reference standard).',
     '',
     `${t.spectra} spectra: ${t.annotated} annotated, ${t.unassigned} unassigned, ${t.errors} error${t.errors === 1 ? '' : 's'}.`,
