@@ -68,7 +68,7 @@ export function scoreSpectrum(
   options: ScoreOptions = {},
 ): SpectrumResult {
   try {
-    const result = scoreUnchecked(spectrum, compiled, options);
+    const result = scoreUnchecked(uniformShape(spectrum), compiled, options);
     return spectrum.rt === undefined ? result : { ...result, rt: spectrum.rt };
   } catch (err) {
     // A fault in the engine must not sink the batch: the spectrum gets an error record.
@@ -80,6 +80,24 @@ export function scoreSpectrum(
       cautions: [],
     };
   }
+}
+
+/**
+ * The spectrum with every field present in one order. Readers and callers build spectra with different
+ * optional fields, in different orders; one shape keeps the engine's property accesses monomorphic (and spares
+ * the optimised code a de-optimisation for each new shape it meets).
+ */
+function uniformShape(s: Spectrum): Spectrum {
+  const p = s.precursor;
+  return {
+    id: s.id,
+    precursor: { mz: p.mz, charge: p.charge, intensity: p.intensity },
+    polarity: s.polarity,
+    rt: s.rt,
+    peaks: s.peaks,
+    isotopes: s.isotopes,
+    metadata: s.metadata,
+  };
 }
 
 function scoreUnchecked(
