@@ -17,18 +17,7 @@ import {
   rangesFromFormula,
 } from '../engine/chem/index.js';
 import { machineLine, writeSection } from './report.js';
-
-/** Small seeded PRNG (mulberry32), so every run draws the same masses. */
-function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+import { mulberry32 as rng } from './sim/prng.js';
 
 interface FinderResult {
   mfs: { mf: string; atoms: Record<string, number> }[];

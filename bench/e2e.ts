@@ -9,6 +9,7 @@ import { Queue, Worker } from 'bullmq';
 import { Redis } from 'ioredis';
 import { deletePrefix } from '../store/redis.js';
 import { machineLine, writeSection } from './report.js';
+import { mulberry32 as prng } from './sim/prng.js';
 
 interface Opts {
   size: number;
@@ -31,18 +32,6 @@ function parseArgs(args: string[], env: NodeJS.ProcessEnv): Opts {
 }
 
 // ——— simulated spectra (simulated data, not measurements) ———
-
-/** mulberry32: a small seeded PRNG, so every run submits the same spectra. */
-function prng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 // Aglycone ions and residue masses from docs REFERENCE §1–3 (computed from NIST isotopic masses).
 const AGLYCONE_IONS = [287.05501, 271.0601, 303.04993, 301.07066, 317.06558, 331.08123];

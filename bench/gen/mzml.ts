@@ -6,6 +6,7 @@ import {
   type BinaryPrecision,
   encodeBinaryArray,
 } from '../../formats/mzml-binary.js';
+import { mulberry32 } from '../sim/prng.js';
 
 /** What {@link generateMzml} writes. */
 export interface GenerateMzmlOptions {
@@ -28,18 +29,6 @@ export interface GenerateMzmlResult {
   bytes: number;
   ms2: number;
   ms1: number;
-}
-
-/** A seeded generator (mulberry32): the same seed gives the same file. */
-function mulberry32(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
 }
 
 const HEADER = `<?xml version="1.0" encoding="utf-8"?>

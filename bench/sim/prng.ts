@@ -15,6 +15,21 @@ function splitmix32(state: number): [number, number] {
   return [next, z >>> 0];
 }
 
+/**
+ * mulberry32: a tiny seeded generator of uniform numbers in [0, 1) for the benchmarks' own simulated inputs
+ * (masses, file contents, service batches) where the data-set generator's richer {@link Rng} is not needed.
+ */
+export function mulberry32(seed: number): () => number {
+  let a = seed >>> 0;
+  return () => {
+    a = (a + 0x6d2b79f5) >>> 0;
+    let t = a;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
+
 /** A 32-bit seed from a number or a string (FNV-1a over UTF-16 code units for strings). */
 export function seedOf(seed: number | string): number {
   if (typeof seed === 'number') return (Math.trunc(seed) ^ Math.trunc(seed / 2 ** 32)) >>> 0;

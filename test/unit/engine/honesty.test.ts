@@ -16,6 +16,7 @@ import {
   readCases,
   stackingOf,
 } from './spectrum-cases.js';
+import { rng as mulberry32 } from '../formats/read-helpers.js';
 
 const rules = (await loadDefaultRuleSet()).value as RuleSet;
 const compiled = compileRuleSet(rules);
@@ -31,18 +32,6 @@ const isCation = (name: string) =>
 
 /** Reason codes an unassigned result may carry (engine/score/score-spectrum.ts, engine/report/build-result.ts). */
 const UNASSIGNED_CODES = ['no-peaks', 'no-precursor-match', 'no-candidate', 'insufficient-evidence'];
-
-/** A seeded PRNG (mulberry32) so that the decoy spectra are the same on every run. */
-function mulberry32(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 describe('cautions', () => {
   it.each([...worked, ...traps])('every annotated result carries the standard cautions: $id', (c) => {
