@@ -12,8 +12,8 @@ import {
   waitFor,
 } from '../../helpers/service.js';
 
-// Simulated spectra (not measurements). While the engine is a placeholder its results are status `error`,
-// so these tests check the plumbing: every spectrum exactly once, statuses present, shapes valid.
+// Simulated spectra (not measurements). These tests check the service around the engine: every spectrum
+// accepted is scored exactly once, each result carries a status, and every document has a valid shape.
 
 let redis: TestRedis;
 let svc: TestService;
