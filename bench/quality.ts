@@ -104,7 +104,6 @@ export async function run(args: string[]): Promise<void> {
     console.log(`wrote ${paths.join(', ')}`);
   }
   const m = report.metrics;
-  const notBuilt = q.results.filter((r) => r.reason?.code === 'not-implemented').length;
   const lines = [
     '## Quality on a simulated set',
     '',
@@ -121,17 +120,12 @@ export async function run(args: string[]): Promise<void> {
     'A candidate is correct when its aglycone formula equals the Y0 ion formula of the truth (in the ' +
       "precursor's adduct family), its name (or one of its tied alternatives) is the truth's name — or `unknown` " +
       'for an invented aglycone — and its residue multiset (residue and O/C linkage) and acyl multiset match. ' +
-      'Topology is reported separately (bracket stacking notation compared canonically). The simulator is written ' +
+      'Ranks hold distinct structures: the other stackings of a candidate are listed with it, not ranked. ' +
+      "Topology is reported separately (the candidate's best stacking, bracket notation compared canonically). " +
+      'The simulator is written ' +
       'independently of the engine (its own tables and fragmentation model); its data are simulated.',
     '',
   ];
-  if (notBuilt > 0) {
-    lines.push(
-      `**Placeholder engine:** ${notBuilt} of ${count} spectra came back \`error: not-implemented\` — the scoring ` +
-        'pipeline had not landed when this was measured, so every rate below is 0 by construction.',
-      '',
-    );
-  }
   lines.push(formatQualityMarkdown(report));
   const md = lines.join('\n');
   writeSection('quality', md);
