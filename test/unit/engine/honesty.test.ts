@@ -91,6 +91,29 @@ describe('ties', () => {
     }
   });
 
+  it.each([...worked, ...traps])('each rank is a distinct structure, stackings aside: $id', (c) => {
+    // A structure is the precursor formula, the aglycone ion and the residues with their O/C linkages; its
+    // other stackings are listed with it (otherTopologies), never ranked as further candidates.
+    const r = scoreSpectrum(caseSpectrum(c), compiled);
+    const keys = r.candidates.map((x) =>
+      [
+        x.formula,
+        x.aglycone.formula,
+        x.substituents
+          .map((s) => `${s.residue}/${s.linkage}`)
+          .sort()
+          .join(','),
+      ].join('|'),
+    );
+    expect(new Set(keys).size).toBe(keys.length);
+    for (const x of r.candidates) {
+      for (const o of x.otherTopologies ?? []) {
+        expect(o.topology).not.toBe(x.topology);
+        expect(o.score).toBeLessThanOrEqual(x.score);
+      }
+    }
+  });
+
   it.each([...worked, ...traps])('the name reported first agrees with the ion type reported: $id', (c) => {
     // A flavylium aglycone is observed as [M]+ (REFERENCE.md §1), a neutral aglycone never is.
     const r = scoreSpectrum(caseSpectrum(c), compiled);

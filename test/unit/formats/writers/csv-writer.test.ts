@@ -66,6 +66,7 @@ describe('CSV writer', () => {
     expect(first[col('aglycone_formula')]).toBe('C15H11O6+');
     expect(first[col('formula')]).toBe('C26H29O15+');
     expect(first[col('substituents')]).toBe('Hex(O);Pen(O)');
+    expect(first[col('other_topologies')]).toBe('cyanidin[Hex][Pen];cyanidin[Pen[Hex]]');
     expect(first[col('rank')]).toBe('1');
     expect(first[col('confidence_level')]).toBe('3');
     expect(first[col('ruleset_version')]).toBe('1.0.0');

@@ -20,6 +20,10 @@ export const CYANIDIN: SpectrumResult = {
         { residue: 'Pen', linkage: 'O' },
       ],
       topology: 'cyanidin-Hex-Pen',
+      otherTopologies: [
+        { topology: 'cyanidin[Hex][Pen]', score: 11.9 },
+        { topology: 'cyanidin[Pen[Hex]]', score: 10.2 },
+      ],
       formula: 'C26H29O15+',
       ppm: 0.4,
       explainedIntensity: 0.93,
