@@ -556,7 +556,15 @@ class Predictor {
     this.#bSize = sortUnique(this.#bKeys, nb);
     this.#y0Loss = y0Loss;
     this.#cLinked = fixedMask !== 0;
-    this.#view?.sync();
+    const v = this.#view;
+    if (v) {
+      v.parent = parent;
+      v.linkage = linkage;
+      v.yLosses.size = this.#ySize;
+      v.bUnits.size = this.#bSize;
+      v.y0Loss = y0Loss;
+      v.cLinked = fixedMask !== 0;
+    }
   }
 
   /** Depth-first enumeration of the retained sets from instance `order[k]` on (see {@link predict}). */
@@ -573,29 +581,8 @@ class Predictor {
 
   /** A view of the current prediction (rewritten by the next {@link Predictor.predict}). */
   view(units: readonly Unit[]): Topology {
-    this.#view ??= new TopologyView(this, units);
+    this.#view ??= new TopologyView(this.#unit, this.#yKeys, this.#bKeys, this.#cCounts, units);
     return this.#view;
-  }
-
-  get parent(): readonly number[] {
-    return this.#parent;
-  }
-
-  get linkage(): readonly Linkage[] {
-    return this.#linkage;
-  }
-
-  /** The current keys in the given sets (which share this predictor's buffers). */
-  fill(view: TopologyView): void {
-    view.yLosses.size = this.#ySize;
-    view.bUnits.size = this.#bSize;
-    view.y0Loss = this.#y0Loss;
-    view.cLinked = this.#cLinked;
-  }
-
-  /** Buffers the view reads. */
-  buffers(): { y: Float64Array; b: Float64Array; c: Uint8Array } {
-    return { y: this.#yKeys, b: this.#bKeys, c: this.#cCounts };
   }
 
   /** A standalone copy of the current prediction (its notation is written when first read). */
@@ -694,34 +681,27 @@ class FrozenTopology implements Topology {
 
 /** The current prediction of a {@link Predictor}, as a {@link Topology} (valid until its next prediction). */
 class TopologyView implements Topology {
-  readonly unit: readonly number[];
   parent: readonly number[] = [];
   linkage: readonly Linkage[] = [];
   readonly yLosses: KeySet;
   readonly bUnits: KeySet;
   y0Loss = 0;
   cLinked = false;
-  readonly cCounts: Uint8Array;
 
+  /** Reads the predictor's buffers; {@link Predictor.predict} sets the rest. */
   constructor(
-    readonly predictor: Predictor,
+    readonly unit: readonly number[],
+    yKeys: Float64Array,
+    bKeys: Float64Array,
+    readonly cCounts: Uint8Array,
     readonly units: readonly Unit[],
   ) {
-    const b = predictor.buffers();
-    this.unit = predictor.unit;
-    this.yLosses = new KeySet(b.y, 0);
-    this.bUnits = new KeySet(b.b, 0);
-    this.cCounts = b.c;
+    this.yLosses = new KeySet(yKeys, 0);
+    this.bUnits = new KeySet(bKeys, 0);
   }
 
   get notation(): string {
     return canonical(this.unit, this.parent, this.linkage, this.units);
-  }
-
-  sync(): void {
-    this.parent = this.predictor.parent;
-    this.linkage = this.predictor.linkage;
-    this.predictor.fill(this);
   }
 }
 
