@@ -90,11 +90,6 @@ export interface EvaluateOptions {
   runs?: Map<readonly PeakReadings[], TopologyRun>;
   /** The precursor's MS1 isotope envelope (`[m/z, intensity]`, monoisotopic first), when the input gave it. */
   envelope?: readonly (readonly [number, number])[];
-  /**
-   * Read every topology in full, never passing one over on its bound. The results are the same (a test
-   * checks it); only slower. @defaultValue false
-   */
-  exhaustive?: boolean;
 }
 
 /**
@@ -458,68 +453,8 @@ export function evaluateTopologies(
   // Y-loss keys read as Y ions (kind 0) by this topology: a stamp per key marks it seen in this call.
   const seenStamp = new Int32Array(yKeys.length);
   let stamp = 0;
-  // For the bound of a topology before its peaks are read: what admitting each key can add to the weighted
-  // intensity (a peak counts under every key it may read as, so their sum over-counts: an upper bound),
-  // which keys some peak reads as the Y ion itself, and which cross-ring cleavages some peak shows.
-  const exhaustive = options.exhaustive === true;
-  const gains = keyGains(readings, entryStart, entryKey, yKeys.length, bKeys.length);
-  const crossShown = new Uint8Array(rules.crossRingResidue.length);
-  for (const r of readings)
-    for (const x of r.list)
-      if (x.kind === 2) {
-        const combo = rules.lossCombos[x.deriv!.combo]!;
-        crossShown[combo.crossRing] = 1;
-        if (combo.crossRing2 >= 0) crossShown[combo.crossRing2] = 1;
-      }
 
-  /**
-   * Scores a topology. With `floor` (a search that only needs to know whether the score beats it), a
-   * topology whose bound neither beats `floor` nor reaches the kept ones is passed over: -Infinity.
-   */
-  const scoreTopology = (topo: Topology, keep?: () => Topology, floor = Number.POSITIVE_INFINITY): number => {
-    let topoPrior = 0;
-    for (let i = 0; i < topo.unit.length; i++) {
-      if (topo.linkage[i] === 'C') topoPrior -= w.cLinkage;
-      if (topo.linkage[i] === 'ester' && topo.parent[i] === -1) topoPrior -= w.acylOnAglycone;
-    }
-    // The bound: every admitted key's gain, no missing ion the readings could still supply.
-    let gain = precursorShare;
-    let ionKeys = 0;
-    let y0Possible = false;
-    for (let i = 0; i < yKeys.length; i++) {
-      const key = yKeys[i]!;
-      const admitted = topo.yLosses.has(key);
-      yAdmitted[i] = admitted ? 1 : 0;
-      if (!admitted) continue;
-      gain += gains.y[i]!;
-      if (gains.yIon[i] === 1) {
-        if (key === topo.y0Loss) y0Possible = true;
-        else if (key !== 0) ionKeys++;
-      }
-    }
-    for (let i = 0; i < bKeys.length; i++) {
-      const admitted = topo.bUnits.has(bKeys[i]!);
-      bAdmitted[i] = admitted ? 1 : 0;
-      if (admitted) gain += gains.b[i]!;
-    }
-    let leastPenalty = topo.y0Loss !== 0 && !y0Possible ? 2 * w.missingIon : 0;
-    if (topo.cLinked) {
-      if (!crossSeen) leastPenalty += 2 * w.missingIon;
-      for (let i = 0; i < topo.unit.length; i++) {
-        if (topo.linkage[i] !== 'C') continue;
-        const diagnostic = rules.diagnosticCrossRing.get(topo.unit[i]!);
-        if (diagnostic)
-          for (const x of diagnostic) if (crossShown[x] !== 1) leastPenalty += 0.5 * w.missingIon;
-      }
-    }
-    leastPenalty += 0.25 * w.missingIon * (topo.yLosses.size - 1 - (topo.y0Loss !== 0 ? 1 : 0) - ionKeys);
-    // A margin for rounding: the sums below run in another order.
-    const bound = 10 * Math.min(gain, precursorShare + gains.total) - leastPenalty + fixed + topoPrior + 1e-9;
-    const keepable =
-      bound >= options.best.score - window &&
-      (perComposition.length < KEEP || bound > perComposition[KEEP - 1]!.score);
-    if (!keepable && bound <= floor && !exhaustive) return Number.NEGATIVE_INFINITY;
-
+  const scoreTopology = (topo: Topology, keep?: () => Topology): number => {
     let explained = precursorShare;
     // Intensity read as an ion itself counts fully, read as that ion after small losses a little less.
     let weighted = precursorShare;
@@ -528,6 +463,8 @@ export function evaluateTopologies(
     // Distinct Y ions seen other than the precursor (key 0) and Y0.
     let seenY = 0;
     stamp++;
+    for (let i = 0; i < yKeys.length; i++) yAdmitted[i] = topo.yLosses.has(yKeys[i]!) ? 1 : 0;
+    for (let i = 0; i < bKeys.length; i++) bAdmitted[i] = topo.bUnits.has(bKeys[i]!) ? 1 : 0;
     for (let r = 0; r < readings.length; r++) {
       const { list, intensity } = readings[r]!;
       const at = entryStart[r]!;
@@ -574,6 +511,11 @@ export function evaluateTopologies(
     const missingY = topo.yLosses.size - 1 - (topo.y0Loss !== 0 ? 1 : 0) - seenY;
     penalty += 0.25 * w.missingIon * missingY;
     const keyIonSeen = topo.cLinked ? crossIntensity > 0 || y0Seen : y0Seen;
+    let topoPrior = 0;
+    for (let i = 0; i < topo.unit.length; i++) {
+      if (topo.linkage[i] === 'C') topoPrior -= w.cLinkage;
+      if (topo.linkage[i] === 'ester' && topo.parent[i] === -1) topoPrior -= w.acylOnAglycone;
+    }
     const score = 10 * weighted - penalty + fixed + topoPrior;
     // Only the best KEEP topologies are kept (allocated); most visited ones never are.
     const full = perComposition.length >= KEEP;
@@ -618,55 +560,6 @@ export function evaluateTopologies(
   );
   if (!options.only) options.runs?.set(readings, { comp: s.comp, fixed, prior: s.prior, candidates });
   return keepBest(candidates, options.best.score - window);
-}
-
-/** What admitting each distinct key can add to a topology's weighted intensity, and the most all peaks can. */
-interface KeyGains {
-  /** Per Y-loss key: the sum over peaks of the best weighted intensity of the peak's readings under that key. */
-  readonly y: Float64Array;
-  /** Per Y-loss key: 1 when some peak reads as that Y ion itself (kind 0). */
-  readonly yIon: Uint8Array;
-  /** Per oxonium / acylium unit key, as `y`. */
-  readonly b: Float64Array;
-  /** The precursor plus every peak at its best reading. */
-  readonly total: number;
-}
-
-function keyGains(
-  readings: readonly PeakReadings[],
-  entryStart: Int32Array,
-  entryKey: Int32Array,
-  nY: number,
-  nB: number,
-): KeyGains {
-  const y = new Float64Array(nY);
-  const yIon = new Uint8Array(nY);
-  const b = new Float64Array(nB);
-  // The peak that last added to each key: a peak adds its best reading under a key once (best first).
-  const yLast = new Int32Array(nY).fill(-1);
-  const bLast = new Int32Array(nB).fill(-1);
-  let total = 0;
-  for (let r = 0; r < readings.length; r++) {
-    const { list, intensity } = readings[r]!;
-    if (list.length > 0) total += intensity * list[0]!.weight;
-    for (let k = 0; k < list.length; k++) {
-      const x = list[k]!;
-      const ki = entryKey[entryStart[r]! + k]!;
-      if (x.kind === 3) {
-        if (bLast[ki] !== r) {
-          bLast[ki] = r;
-          b[ki]! += intensity * x.weight;
-        }
-        continue;
-      }
-      if (x.kind === 0) yIon[ki] = 1;
-      if (yLast[ki] !== r) {
-        yLast[ki] = r;
-        y[ki]! += intensity * x.weight;
-      }
-    }
-  }
-  return { y, yIon, b, total };
 }
 
 /** Whether a topology has C-linked residues for every cleavage of a cross-ring reading. */

@@ -277,11 +277,9 @@ export interface SearchOptions {
 
 /**
  * Scores a topology. During a search the topology is a view rewritten at every step: valid for the call
- * only; `keep()` returns a copy that stays valid (built only for topologies worth keeping). The search only
- * asks whether the score beats `floor`: a scorer that can tell, without reading the spectrum, that it does not
- * may return -Infinity instead of the score (and must not have kept the topology).
+ * only; `keep()` returns a copy that stays valid (built only for topologies worth keeping).
  */
-export type TopologyScorer = (t: Topology, keep: () => Topology, floor: number) => number;
+export type TopologyScorer = (t: Topology, keep: () => Topology) => number;
 
 /**
  * Local search over topologies of a composition too large to enumerate: from a chain and from a star,
@@ -309,20 +307,15 @@ export function searchTopologies(
   // Distinct topologies by their shape hash (a 52-bit hash of the canonical form: collisions are negligible
   // among the few hundred topologies one search visits).
   const visited = new Map<number, number>();
-  // Topologies the scorer passed over (their score is at most the floor it was given), by shape hash.
-  const below = new Map<number, number>();
   const view = predictor.view(units);
   const keep = () => predictor.freeze(units);
-  const evaluate = (parent: number[], linkage: Linkage[], floor: number): number => {
+  const evaluate = (parent: number[], linkage: Linkage[]): number => {
     const h = hasher.hash(parent, linkage);
     const hit = visited.get(h);
     if (hit !== undefined) return hit;
-    const under = below.get(h);
-    if (under !== undefined && under <= floor) return Number.NEGATIVE_INFINITY;
     predictor.predict(parent, linkage);
-    const s = score(view, keep, floor);
-    if (s === Number.NEGATIVE_INFINITY) below.set(h, floor);
-    else visited.set(h, s);
+    const s = score(view, keep);
+    visited.set(h, s);
     return s;
   };
   const createsCycle = (parent: number[], i: number, p: number): boolean => {
@@ -341,7 +334,7 @@ export function searchTopologies(
     // Moves are tried in place on `parent` / `linkage` and undone; the best one is then applied.
     const parent = start.slice();
     const linkage = baseLink.slice();
-    let current = evaluate(parent, linkage, Number.NEGATIVE_INFINITY);
+    let current = evaluate(parent, linkage);
     let cCount = 0;
     for (let round = 0; round < (options.maxRounds ?? 5); round++) {
       let bestScore = current;
@@ -355,7 +348,7 @@ export function searchTopologies(
           if (p === i || p === p0 || (p >= 0 && createsCycle(parent, i, p))) continue;
           parent[i] = p;
           if (i < nRes && p >= 0) linkage[i] = 'O'; // a residue on another residue is O-linked
-          const s = evaluate(parent, linkage, bestScore + 1e-9);
+          const s = evaluate(parent, linkage);
           parent[i] = p0;
           linkage[i] = l0;
           if (s > bestScore + 1e-9) {
@@ -370,7 +363,7 @@ export function searchTopologies(
           const flipped: Linkage = l0 === 'C' ? 'O' : 'C';
           if (flipped === 'O' || cCount + 1 <= maxC) {
             linkage[i] = flipped;
-            const s = evaluate(parent, linkage, bestScore + 1e-9);
+            const s = evaluate(parent, linkage);
             linkage[i] = l0;
             if (s > bestScore + 1e-9) {
               bestScore = s;

@@ -52,11 +52,6 @@ export interface ScoreOptions {
   precursorPpm?: number;
   /** Extra candidates to score beside those enumerated from the rules. */
   candidates?: readonly UserCandidate[];
-  /**
-   * Score every candidate stacking in full instead of passing over those whose bound shows they cannot
-   * compete. The results are the same (a test checks it); it exists for that check. @defaultValue false
-   */
-  exhaustive?: boolean;
 }
 
 /** One precursor hypothesis after its tree is solved. */
@@ -157,7 +152,6 @@ function scoreUnchecked(
     best,
     window,
     runs: new Map(),
-    exhaustive: options.exhaustive === true,
     ...(spectrum.isotopes ? { envelope: spectrum.isotopes } : {}),
   };
   // Screen the interpretations of the hypotheses that can still compete (no tree yet).
