@@ -162,7 +162,9 @@ export function enumerateTopologies(
   };
 
   const out: Topology[] = [];
-  const seenText = new Set<string>();
+  // Placed topologies seen, by shape hash (equal canonical forms hash alike; a 52-bit hash keeps distinct
+  // ones apart among the few thousand one composition has).
+  const seenShape = new Set<number>();
   for (const forest of forests(residues)) {
     // Flatten to instances.
     const unit: number[] = [];
@@ -175,33 +177,35 @@ export function enumerateTopologies(
     };
     for (const t of forest) walk(t, -1);
     const nRes = unit.length;
-    // Acyl placements: each acyl on the aglycone (-1) or one residue instance.
-    const place = (k: number, hosts: number[]) => {
+    // Instances: the forest's residues, then the acyl groups; the C-linkable residues on the aglycone and
+    // the sets of them that may be C-linked depend on the forest only.
+    const u2 = unit.concat(acyls);
+    const hasher = new ShapeHasher(u2, u2.length);
+    const rootRes = [...Array(nRes).keys()].filter(
+      (i) => parent[i] === -1 && units[unit[i]!]!.linkages.includes('C'),
+    );
+    const cSets = subsetsUpTo(rootRes, Math.min(options.maxCLinked ?? 0, rootRes.length));
+    const p2 = parent.concat(acyls.map(() => -1));
+    // Acyl placements: each acyl on the aglycone (-1) or one residue instance (p2 rewritten in place).
+    const place = (k: number) => {
       if (out.length >= limit) return;
       if (k === acyls.length) {
-        const u2 = unit.concat(acyls);
-        const p2 = parent.concat(hosts);
-        const rootRes = [...Array(nRes).keys()].filter(
-          (i) => parent[i] === -1 && units[unit[i]!]!.linkages.includes('C'),
-        );
-        const maxC = Math.min(options.maxCLinked ?? 0, rootRes.length);
-        for (const cSet of subsetsUpTo(rootRes, maxC)) {
-          const link = u2.map((_, i) => (i >= nRes ? 'ester' : cSet.includes(i) ? 'C' : 'O')) as (
-            | 'O'
-            | 'C'
-            | 'ester'
-          )[];
-          const notation = canonical(u2, p2, link, units);
-          if (seenText.has(notation)) continue;
-          seenText.add(notation);
-          // The notation served for de-duplication only; the memo's copy writes its own when first shown.
+        for (const cSet of cSets) {
+          const link = u2.map((_, i) => (i >= nRes ? 'ester' : cSet.includes(i) ? 'C' : 'O')) as Linkage[];
+          const shape = hasher.hash(p2, link);
+          if (seenShape.has(shape)) continue;
+          seenShape.add(shape);
+          // The memo's copy writes its notation when first shown.
           out.push(memoTopology(u2, p2, link, units));
         }
         return;
       }
-      for (let h = -1; h < nRes; h++) place(k + 1, [...hosts, h]);
+      for (let h = -1; h < nRes; h++) {
+        p2[nRes + k] = h;
+        place(k + 1);
+      }
     };
-    place(0, []);
+    place(0);
     if (out.length >= limit) break;
   }
   return out;
