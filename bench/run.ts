@@ -6,6 +6,7 @@ const BENCHES: Record<string, () => Promise<{ run: (args: string[]) => Promise<v
   e2e: () => import('./e2e.js'),
   'score-speed': () => import('./score-speed.js'),
   'score-memory': () => import('./score-memory.js'),
+  paired: () => import('./paired.js'),
 };
 
 const [name, ...args] = process.argv.slice(2);
