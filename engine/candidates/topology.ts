@@ -208,7 +208,36 @@ export function enumerateTopologies(
     place(0);
     if (out.length >= limit) break;
   }
-  return out;
+  return packKeys(out);
+}
+
+/**
+ * The same topologies with their Y and B keys in one buffer for the whole list: a cached list holds hundreds
+ * of topologies, and one typed array each would be hundreds of separately allocated buffers.
+ */
+function packKeys(list: readonly Topology[]): Topology[] {
+  let total = 0;
+  for (const t of list) total += t.yLosses.size + t.bUnits.size;
+  const keys = new Float64Array(total);
+  let at = 0;
+  return list.map((t) => {
+    const y = at;
+    for (const k of t.yLosses) keys[at++] = k;
+    const b = at;
+    for (const k of t.bUnits) keys[at++] = k;
+    return new FrozenTopology(
+      t.unit,
+      t.parent,
+      t.linkage,
+      new KeySet(keys, t.yLosses.size, y),
+      new KeySet(keys, t.bUnits.size, b),
+      t.y0Loss,
+      t.cLinked,
+      t.cCounts,
+      (t as FrozenTopology).units,
+      undefined,
+    );
+  });
 }
 
 function subsetsUpTo<T>(items: T[], max: number): T[][] {
