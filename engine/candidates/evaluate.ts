@@ -104,9 +104,13 @@ export function compositionBounds(
 ): Float64Array {
   const precursorShare = spectrum.precursorIndex >= 0 ? spectrum.intensity[spectrum.precursorIndex]! : 0;
   const bound = new Float64Array(compositionCount).fill(precursorShare);
-  // Best reading weight per peak and composition, flat: wts[peak * compositionCount + ci].
+  // Best reading weight per peak and composition, flat: wts[peak * compositionCount + ci] (a scratch buffer
+  // reused from call to call: large typed arrays are allocated outside the JS heap, slowly).
   const nPeaks = spectrum.mz.length;
-  const wts = new Float64Array(nPeaks * compositionCount);
+  const size = nPeaks * compositionCount;
+  if (weightScratch.length < size) weightScratch = new Float64Array(Math.max(size, 2 * weightScratch.length));
+  const wts = weightScratch;
+  wts.fill(0, 0, size);
   for (let v = 1; v < nodes.length; v++) {
     const n = nodes[v]!;
     const at = n.peak * compositionCount;
@@ -126,6 +130,8 @@ export function compositionBounds(
   }
   return bound;
 }
+
+let weightScratch = new Float64Array(1024);
 
 /** Enumerated topologies per composition (they depend on the rule set only). */
 const topologyCache = new WeakMap<CompiledRuleSet, LruCache<number | string, Topology[]>>();

@@ -335,7 +335,14 @@ export function searchTopologies(
   });
   const n = unit.length;
   const maxC = options.maxCLinked ?? 0;
-  const predictor = new Predictor(n, composition.length).setUnits(unit);
+  // One predictor per instance and unit count, reused by every search (its buffers are rewritten).
+  const poolKey = n * 1024 + composition.length;
+  let predictor = searchPredictors.get(poolKey);
+  if (!predictor) {
+    predictor = new Predictor(n, composition.length);
+    searchPredictors.set(poolKey, predictor);
+  }
+  predictor.setUnits(unit);
   const hasher = new ShapeHasher(unit, n);
   // Distinct topologies by their shape hash (a 52-bit hash of the canonical form: collisions are negligible
   // among the few hundred topologies one search visits).
@@ -487,11 +494,19 @@ class ShapeHasher {
   }
 }
 
+const EMPTY_KEYS = new Float64Array(0);
+
+/** Keys per block of frozen topologies' keys (8 KB). */
+const KEY_BLOCK = 1024;
+
 /**
  * Computes a topology's predictions (Y losses, B units, Y0 loss, C-links) into reusable buffers, for a fixed
  * list of unit instances; {@link Predictor.freeze} copies the current one into a standalone {@link Topology}.
  */
 class Predictor {
+  /** The block frozen topologies' keys are written to, and how much of it is taken. */
+  #block: Float64Array = EMPTY_KEYS;
+  #blockUsed = 0;
   readonly #weight: Float64Array;
   #total = 0;
   readonly #order: Int32Array;
@@ -615,22 +630,35 @@ class Predictor {
   /** A view of the current prediction (rewritten by the next {@link Predictor.predict}). */
   view(units: readonly Unit[]): Topology {
     this.#view ??= new TopologyView(this.#unit, this.#yKeys, this.#bKeys, this.#cCounts, units);
+    // A pooled predictor serves compositions (and rule sets) in turn: the view follows the current ones.
+    this.#view.unit = this.#unit;
+    this.#view.units = units;
     return this.#view;
   }
 
   /** A standalone copy of the current prediction (its notation is written when first read). */
   freeze(units: readonly Unit[], notation?: string, share = false): Topology {
-    // Y and B keys in one buffer; with `share`, instance lists, linkages and C counts are shared with every
-    // equal one (memos hold thousands of topologies, most of them alike in these).
-    const keys = new Float64Array(this.#ySize + this.#bSize);
-    keys.set(this.#yKeys.subarray(0, this.#ySize));
-    keys.set(this.#bKeys.subarray(0, this.#bSize), this.#ySize);
+    // Y and B keys side by side in the predictor's current block (a typed array above 64 bytes is allocated
+    // outside the JS heap, slowly: one block serves many frozen topologies); with `share`, instance lists,
+    // linkages and C counts are shared with every equal one (memos hold thousands of topologies, most of them
+    // alike in these).
+    const ny = this.#ySize;
+    const nb = this.#bSize;
+    if (this.#blockUsed + ny + nb > this.#block.length) {
+      this.#block = new Float64Array(Math.max(KEY_BLOCK, ny + nb));
+      this.#blockUsed = 0;
+    }
+    const keys = this.#block;
+    const at = this.#blockUsed;
+    for (let i = 0; i < ny; i++) keys[at + i] = this.#yKeys[i]!;
+    for (let i = 0; i < nb; i++) keys[at + ny + i] = this.#bKeys[i]!;
+    this.#blockUsed = at + ny + nb;
     return new FrozenTopology(
       share ? intern(this.unit, 1) : this.unit.slice(),
       share ? intern(this.#parent, 2) : this.#parent.slice(),
       share ? intern(this.#linkage, 3) : this.#linkage.slice(),
-      new KeySet(keys, this.#ySize),
-      new KeySet(keys, this.#bSize, this.#ySize),
+      new KeySet(keys, ny, at),
+      new KeySet(keys, nb, at + ny),
       this.#y0Loss,
       this.#cLinked,
       share ? internBytes(this.#cCounts) : this.#cCounts.slice(),
@@ -723,11 +751,11 @@ class TopologyView implements Topology {
 
   /** Reads the predictor's buffers; {@link Predictor.predict} sets the rest. */
   constructor(
-    readonly unit: readonly number[],
+    public unit: readonly number[],
     yKeys: Float64Array,
     bKeys: Float64Array,
     readonly cCounts: Uint8Array,
-    readonly units: readonly Unit[],
+    public units: readonly Unit[],
   ) {
     this.yLosses = new KeySet(yKeys, 0);
     this.bUnits = new KeySet(bKeys, 0);
@@ -737,6 +765,9 @@ class TopologyView implements Topology {
     return canonical(this.unit, this.parent, this.linkage, this.units);
   }
 }
+
+/** Predictors of {@link searchTopologies}, by instance and unit count (a search is never nested in another). */
+const searchPredictors = new Map<number, Predictor>();
 
 /** Scratch predictors of {@link makeTopology}, by instance and unit count (never held across calls). */
 const predictors = new Map<number, Predictor>();

@@ -209,6 +209,23 @@ function subMultisetsCached(units: Uint8Array, rules: CompiledRuleSet): SubMulti
 /** Compositions whose sub-multisets are kept: more than the default rule set has. */
 const SUB_CACHE_SIZE = 10_000;
 
+/**
+ * Scratch buffers of {@link matchHypothesis}, reused from call to call: a typed array above 64 bytes is
+ * allocated outside the JS heap, which costs far more than the arithmetic done in it.
+ */
+const atomScratch: Float64Array[] = [];
+let matchScratch = new Int32Array(256);
+
+/** Scratch buffer `slot` with room for `n` values (contents undefined; valid until the next call). */
+function scratch(slot: number, n: number): Float64Array {
+  let a = atomScratch[slot];
+  if (!a || a.length < n) {
+    a = new Float64Array(Math.max(n, 128));
+    atomScratch[slot] = a;
+  }
+  return a;
+}
+
 /** Sub-multisets of a unit count vector, the empty one first. */
 export function subMultisets(units: Uint8Array): Uint8Array[] {
   const out: Uint8Array[] = [];
@@ -357,19 +374,19 @@ export function matchHypothesis(
   const peakMz = spectrum.mz;
   // Multi-loss combinations on ladder ends only; cross-ring ones when a residue may be C-linked.
   const lists = comboLists(rules, options.polarity);
-  // Peaks as ion atom masses (m/z × |z| + z electrons) per charge of a core, ascending like the m/z.
+  // Peaks as ion atom masses (m/z × |z| + z electrons) per charge of a core, ascending like the m/z (in
+  // scratch buffers: valid for this call).
   const atomsByCharge = new Map<number, Float64Array>();
   for (const core of cores) {
     const z = core.charge;
-    if (!atomsByCharge.has(z))
-      atomsByCharge.set(
-        z,
-        Float64Array.from(peakMz, (mz) => mz * Math.abs(z) + z * ELECTRON_MASS),
-      );
+    if (atomsByCharge.has(z)) continue;
+    const atoms = scratch(atomsByCharge.size, nPeaks);
+    for (let p = 0; p < nPeaks; p++) atoms[p] = peakMz[p]! * Math.abs(z) + z * ELECTRON_MASS;
+    atomsByCharge.set(z, atoms);
   }
   // Matches of one (removed, core) step, as (list position, radical, peak) codes sorted into the order a
   // combination-by-combination scan would give.
-  let matches = new Int32Array(64);
+  let matches = matchScratch;
   const stride = nPeaks + 1;
   const radicalOk = options.polarity === 'negative';
   const coreMasses = cores.map((k) => countsMass(k.counts));
@@ -444,6 +461,7 @@ export function matchHypothesis(
                 const grown = new Int32Array(matches.length * 2);
                 grown.set(matches);
                 matches = grown;
+                matchScratch = grown;
               }
               matches[nMatch++] = (list.pos[q]! * 2 + radical) * stride + p;
             }
