@@ -1,6 +1,14 @@
 import type { FragGraph, TreeSolution } from './graph.js';
 import { solveGreedy } from './greedy.js';
 
+/** Working arrays of {@link solveExact}, grown as graphs need (a search is never nested in another). */
+const work = {
+  maxIn: new Float64Array(64),
+  parent: new Int32Array(64),
+  suffix: new Float64Array(1024),
+  used: new Uint8Array(64),
+};
+
 /** Options of {@link solveExact}. */
 export interface ExactOptions {
   /** Give up (and return the best tree found, marked not exact) after this many search nodes. @defaultValue 20000 */
@@ -22,26 +30,39 @@ export function solveExact(g: FragGraph, options: ExactOptions = {}): TreeSoluti
   const C = g.colourCount;
   const seed = solveGreedy(g);
   let bestScore = seed.score;
-  let bestParent = seed.parent.slice();
+  // The greedy tree is this call's own: it seeds the incumbent as it is.
+  let bestParent = seed.parent;
 
+  // Working arrays are scratch buffers reused from call to call (typed arrays above 64 bytes are allocated
+  // outside the JS heap, slowly).
+  if (work.maxIn.length < n) {
+    work.maxIn = new Float64Array(2 * n);
+    work.parent = new Int32Array(2 * n);
+  }
+  if (work.suffix.length < (n + 1) * C) work.suffix = new Float64Array(2 * (n + 1) * C);
+  if (work.used.length < C) work.used = new Uint8Array(2 * C);
   // maxIn[v]: best incoming edge of v regardless of which parents are kept (≥ 0 for the bound).
-  const maxIn = new Float64Array(n);
+  const maxIn = work.maxIn;
+  maxIn[0] = 0;
   for (let v = 1; v < n; v++) {
     let w = 0;
     for (let k = g.inStart[v]!; k < g.inStart[v + 1]!; k++) if (g.inWeight[k]! > w) w = g.inWeight[k]!;
     maxIn[v] = w;
   }
   // suffix[k*C + c]: best maxIn among nodes ≥ k of colour c.
-  const suffix = new Float64Array((n + 1) * C);
+  const suffix = work.suffix;
+  suffix.fill(0, 0, (n + 1) * C);
   for (let k = n - 1; k >= 1; k--) {
     suffix.copyWithin(k * C, (k + 1) * C, (k + 2) * C);
     const c = g.colour[k]!;
     if (maxIn[k]! > suffix[k * C + c]!) suffix[k * C + c] = maxIn[k]!;
   }
 
-  const parent = new Int32Array(n).fill(-1);
+  const parent = work.parent;
+  parent.fill(-1, 0, n);
   parent[0] = 0;
-  const used = new Uint8Array(C);
+  const used = work.used;
+  used.fill(0, 0, C);
   used[g.colour[0]!] = 1;
   let steps = 0;
   let aborted = false;
@@ -63,7 +84,7 @@ export function solveExact(g: FragGraph, options: ExactOptions = {}): TreeSoluti
     if (k === n) {
       if (score > bestScore + eps) {
         bestScore = score;
-        bestParent = parent.slice();
+        bestParent = parent.slice(0, n);
       }
       return;
     }

@@ -9,21 +9,29 @@ export function solveGreedy(g: FragGraph): TreeSolution {
   const n = g.nodeCount;
   const parent = new Int32Array(n).fill(-1);
   parent[0] = 0;
-  const used = new Uint8Array(g.colourCount);
+  // Working arrays are scratch buffers reused from call to call (typed arrays above 64 bytes are allocated
+  // outside the JS heap, slowly); only `parent` is returned.
+  const s = scratch.fit(n, g.colourCount, g.inFrom.length);
+  const used = s.used;
+  used.fill(0, 0, g.colourCount);
   used[g.colour[0]!] = 1;
   let score = 0;
   let steps = 0;
   // best[v]: best edge weight into v from a node already in the tree; bestFrom[v] its parent.
-  const best = new Float64Array(n).fill(Number.NEGATIVE_INFINITY);
-  const bestFrom = new Int32Array(n).fill(-1);
+  const best = s.best;
+  best.fill(Number.NEGATIVE_INFINITY, 0, n);
+  const bestFrom = s.bestFrom;
+  bestFrom.fill(-1, 0, n);
   // Children lists, to update best[] when a node joins.
-  const outStart = new Int32Array(n + 1);
+  const outStart = s.outStart;
+  outStart.fill(0, 0, n + 1);
   for (let v = 0; v < n; v++)
     for (let k = g.inStart[v]!; k < g.inStart[v + 1]!; k++) outStart[g.inFrom[k]! + 1]!++;
   for (let v = 0; v < n; v++) outStart[v + 1]! += outStart[v]!;
-  const fill = outStart.slice(0, n);
-  const outTo = new Int32Array(g.inFrom.length);
-  const outW = new Float64Array(g.inFrom.length);
+  const fill = s.fill;
+  for (let v = 0; v < n; v++) fill[v] = outStart[v]!;
+  const outTo = s.outTo;
+  const outW = s.outW;
   for (let v = 0; v < n; v++) {
     for (let k = g.inStart[v]!; k < g.inStart[v + 1]!; k++) {
       const u = g.inFrom[k]!;
@@ -82,6 +90,35 @@ export function solveGreedy(g: FragGraph): TreeSolution {
   }
   return { parent, score, exact: false, steps };
 }
+
+/** Growable working arrays of {@link solveGreedy}. */
+class GreedyScratch {
+  used = new Uint8Array(64);
+  best = new Float64Array(64);
+  bestFrom = new Int32Array(64);
+  outStart = new Int32Array(65);
+  fill = new Int32Array(64);
+  outTo = new Int32Array(256);
+  outW = new Float64Array(256);
+
+  /** Makes room for n nodes, c colours and e edges. */
+  fit(n: number, c: number, e: number): this {
+    if (this.used.length < c) this.used = new Uint8Array(2 * c);
+    if (this.best.length < n) {
+      this.best = new Float64Array(2 * n);
+      this.bestFrom = new Int32Array(2 * n);
+      this.outStart = new Int32Array(2 * n + 1);
+      this.fill = new Int32Array(2 * n);
+    }
+    if (this.outTo.length < e) {
+      this.outTo = new Int32Array(2 * e);
+      this.outW = new Float64Array(2 * e);
+    }
+    return this;
+  }
+}
+
+const scratch = new GreedyScratch();
 
 /** Weight of the best edge u→v (−∞ when none). */
 export function edgeWeight(g: FragGraph, u: number, v: number): number {
