@@ -200,18 +200,25 @@ export function interpretPrecursor(
     if (polarity === 'negative' && hasPeak(spectrum, (y0 - H_MASS - shift) / az, options)) return true;
     // Cross-ring losses of the C-linkable residues the composition holds (a flat table: no pointer chase).
     if (!hasCLinkable[compIndex]) return false;
+    // A C-glycoside shows several cross-ring cleavages of its C-linked sugar (losses of 90 and 120 from a
+    // C-hexoside, PMC5632855; 120 and 150, Kazuno 2005); one peak at one such loss is often a coincidence in a
+    // busy spectrum, so two different cleavages are asked for (or every one the rule set defines, if fewer).
     let wholeCross = 0;
+    let monoCross = 0;
+    let monoDefined = 0;
     for (let k = 0; k < crossOnC.length; k++) {
       const x = crossOnC[k]!;
       const r = rules.crossRingResidue[x]!;
       if (compositionUnits[compIndex * nUnits + r]! < 1) continue;
+      monoDefined++;
       // On the aglycone with that residue alone (a mono-C-glycoside after its O-linked units are gone) ...
       const ion1 = y0 + rules.units[r]!.mass - rules.crossRingMasses[x]!;
       if (
         hasPeak(spectrum, (ion1 - shift) / az, options) ||
         hasPeak(spectrum, (ion1 - WATER - shift) / az, options)
       )
-        return true;
+        monoCross++;
+      if (monoCross >= 2) return true;
       // ... or on the whole molecule (di-C-glycosides keep both sugars: their cross-ring ions start there).
       // A single such peak is often a coincidence, so two different cleavages are asked for.
       const ion2 = y0 + masses[compIndex]! - rules.crossRingMasses[x]!;
@@ -221,7 +228,7 @@ export function interpretPrecursor(
       )
         wholeCross++;
     }
-    return wholeCross >= 2;
+    return wholeCross >= 2 || (monoCross >= 1 && monoDefined === 1);
   };
 
   const add = (ion: IonType, agl: AglyconeChoice, compIndex: number, aglCounts: Counts) => {
