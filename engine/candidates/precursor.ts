@@ -133,6 +133,8 @@ interface PrecursorTables {
   readonly aglyconeKeys: ReadonlySet<number>;
   /** Cross-ring losses (indices) of residues that may be C-linked. */
   readonly crossOnC: readonly number[];
+  /** The residues (unit indices) with such a cross-ring loss, each once. */
+  readonly cResidues: readonly number[];
   /** Per composition (by index), 1 when it holds a residue with a cross-ring loss that may be C-linked. */
   readonly hasCLinkable: Uint8Array;
   /** Every composition's unit counts in one flat array (`[index * units + u]`), read without pointer chasing. */
@@ -154,6 +156,7 @@ function precursorTables(rules: CompiledRuleSet): PrecursorTables {
       residueMasses: rules.units.filter((u) => u.kind === 'residue').map((u) => u.mass),
       aglyconeKeys: new Set(rules.aglyconeGroups.map((g) => formulaKey(g.counts, g.cation ? 1 : 0))),
       crossOnC: rules.crossRingResidue.flatMap((r, x) => (rules.units[r]!.linkages.includes('C') ? [x] : [])),
+      cResidues: [...new Set(rules.crossRingResidue.filter((r) => rules.units[r]!.linkages.includes('C')))],
       massIndex: massBins(rules.compositionMasses),
       compositionUnits: Uint8Array.from(rules.compositions.flatMap((c) => Array.from(c.units))),
       hasCLinkable: Uint8Array.from(rules.compositions, (c) =>
@@ -184,8 +187,16 @@ export function interpretPrecursor(
     charge === undefined ? Math.abs(t.charge) === 1 : Math.abs(t.charge) === Math.abs(charge),
   );
   const masses = rules.compositionMasses;
-  const { aglFilter, residueMasses, aglyconeKeys, crossOnC, hasCLinkable, compositionUnits, massIndex } =
-    precursorTables(rules);
+  const {
+    aglFilter,
+    residueMasses,
+    aglyconeKeys,
+    crossOnC,
+    cResidues,
+    hasCLinkable,
+    compositionUnits,
+    massIndex,
+  } = precursorTables(rules);
   const nUnits = rules.units.length;
 
   // Whether the interpretation's aglycone is evidenced: its Y0 (or radical Y0) ion, or a cross-ring ion of a
@@ -203,7 +214,14 @@ export function interpretPrecursor(
     // A C-glycoside shows several cross-ring cleavages of its C-linked sugar (losses of 90 and 120 from a
     // C-hexoside, PMC5632855; 120 and 150, Kazuno 2005); one peak at one such loss is often a coincidence in a
     // busy spectrum, so two different cleavages are asked for (or every one the rule set defines, if fewer).
-    let wholeCross = 0;
+    const cross = (core: number, x: number) => {
+      const ion = core - rules.crossRingMasses[x]!;
+      return (
+        hasPeak(spectrum, (ion - shift) / az, options) ||
+        hasPeak(spectrum, (ion - WATER - shift) / az, options)
+      );
+    };
+    // On the aglycone with one C-linked residue (a mono-C-glycoside after its O-linked units are gone) ...
     let monoCross = 0;
     let monoDefined = 0;
     for (let k = 0; k < crossOnC.length; k++) {
@@ -211,24 +229,40 @@ export function interpretPrecursor(
       const r = rules.crossRingResidue[x]!;
       if (compositionUnits[compIndex * nUnits + r]! < 1) continue;
       monoDefined++;
-      // On the aglycone with that residue alone (a mono-C-glycoside after its O-linked units are gone) ...
-      const ion1 = y0 + rules.units[r]!.mass - rules.crossRingMasses[x]!;
-      if (
-        hasPeak(spectrum, (ion1 - shift) / az, options) ||
-        hasPeak(spectrum, (ion1 - WATER - shift) / az, options)
-      )
-        monoCross++;
+      if (cross(y0 + rules.units[r]!.mass, x)) monoCross++;
       if (monoCross >= 2) return true;
-      // ... or on the whole molecule (di-C-glycosides keep both sugars: their cross-ring ions start there).
-      // A single such peak is often a coincidence, so two different cleavages are asked for.
-      const ion2 = y0 + masses[compIndex]! - rules.crossRingMasses[x]!;
-      if (
-        hasPeak(spectrum, (ion2 - shift) / az, options) ||
-        hasPeak(spectrum, (ion2 - WATER - shift) / az, options)
-      )
-        wholeCross++;
     }
-    return wholeCross >= 2 || (monoCross >= 1 && monoDefined === 1);
+    if (monoCross >= 1 && monoDefined === 1) return true;
+    // One such ion of the aglycone's core also does when the whole molecule shows two cleavages (they mark a
+    // C-glycoside; the core ion ties it to this aglycone).
+    if (monoCross >= 1) {
+      let whole = 0;
+      for (let k = 0; k < crossOnC.length; k++) {
+        const x = crossOnC[k]!;
+        if (compositionUnits[compIndex * nUnits + rules.crossRingResidue[x]!]! < 1) continue;
+        if (cross(y0 + masses[compIndex]!, x) && ++whole >= 2) return true;
+      }
+    }
+    // ... or on the aglycone with two C-linked residues (a di-C-glycoside's core, its cross-ring ions starting
+    // from the core: the whole molecule when the composition is just those two). The ions of the whole molecule
+    // alone would not do when it holds more: they fit every aglycone + composition split of the precursor.
+    for (let a = 0; a < cResidues.length; a++) {
+      const ra = cResidues[a]!;
+      const na = compositionUnits[compIndex * nUnits + ra]!;
+      if (na < 1) continue;
+      for (let b = a; b < cResidues.length; b++) {
+        const rb = cResidues[b]!;
+        if (compositionUnits[compIndex * nUnits + rb]! < (b === a ? 2 : 1)) continue;
+        const core = y0 + rules.units[ra]!.mass + rules.units[rb]!.mass;
+        let seen = 0;
+        for (let k = 0; k < crossOnC.length; k++) {
+          const x = crossOnC[k]!;
+          const r = rules.crossRingResidue[x]!;
+          if ((r === ra || r === rb) && cross(core, x) && ++seen >= 2) return true;
+        }
+      }
+    }
+    return false;
   };
 
   const add = (ion: IonType, agl: AglyconeChoice, compIndex: number, aglCounts: Counts) => {
