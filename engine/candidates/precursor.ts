@@ -201,6 +201,13 @@ export function interpretPrecursor(
 
   // Whether the interpretation's aglycone is evidenced: its Y0 (or radical Y0) ion, or a cross-ring ion of a
   // C-linkable residue on it. Readings without either could never be annotated, so they are not pursued.
+  // A cross-ring ion of a C-glycosidic core of atom mass `core` (or its water loss) is in the spectrum.
+  const crossAt = (core: number, x: number, shift: number, az: number): boolean => {
+    const ion = core - rules.crossRingMasses[x]!;
+    return (
+      hasPeak(spectrum, (ion - shift) / az, options) || hasPeak(spectrum, (ion - WATER - shift) / az, options)
+    );
+  };
   const keyIon = (ion: IonType, aglCounts: Counts, cation: boolean, compIndex: number): boolean => {
     const frag = cation ? NO_DELTA : fragmentDelta(ion, rules);
     const z = frag.charge;
@@ -214,13 +221,6 @@ export function interpretPrecursor(
     // A C-glycoside shows several cross-ring cleavages of its C-linked sugar (losses of 90 and 120 from a
     // C-hexoside, PMC5632855; 120 and 150, Kazuno 2005); one peak at one such loss is often a coincidence in a
     // busy spectrum, so two different cleavages are asked for (or every one the rule set defines, if fewer).
-    const cross = (core: number, x: number) => {
-      const ion = core - rules.crossRingMasses[x]!;
-      return (
-        hasPeak(spectrum, (ion - shift) / az, options) ||
-        hasPeak(spectrum, (ion - WATER - shift) / az, options)
-      );
-    };
     // On the aglycone with one C-linked residue (a mono-C-glycoside after its O-linked units are gone) ...
     let monoCross = 0;
     let monoDefined = 0;
@@ -229,7 +229,7 @@ export function interpretPrecursor(
       const r = rules.crossRingResidue[x]!;
       if (compositionUnits[compIndex * nUnits + r]! < 1) continue;
       monoDefined++;
-      if (cross(y0 + rules.units[r]!.mass, x)) monoCross++;
+      if (crossAt(y0 + rules.units[r]!.mass, x, shift, az)) monoCross++;
       if (monoCross >= 2) return true;
     }
     if (monoCross >= 1 && monoDefined === 1) return true;
@@ -240,7 +240,7 @@ export function interpretPrecursor(
       for (let k = 0; k < crossOnC.length; k++) {
         const x = crossOnC[k]!;
         if (compositionUnits[compIndex * nUnits + rules.crossRingResidue[x]!]! < 1) continue;
-        if (cross(y0 + masses[compIndex]!, x) && ++whole >= 2) return true;
+        if (crossAt(y0 + masses[compIndex]!, x, shift, az) && ++whole >= 2) return true;
       }
     }
     // ... or on the aglycone with two C-linked residues (a di-C-glycoside's core, its cross-ring ions starting
@@ -258,7 +258,7 @@ export function interpretPrecursor(
         for (let k = 0; k < crossOnC.length; k++) {
           const x = crossOnC[k]!;
           const r = rules.crossRingResidue[x]!;
-          if ((r === ra || r === rb) && cross(core, x) && ++seen >= 2) return true;
+          if ((r === ra || r === rb) && crossAt(core, x, shift, az) && ++seen >= 2) return true;
         }
       }
     }
