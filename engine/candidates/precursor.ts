@@ -199,8 +199,6 @@ export function interpretPrecursor(
   } = precursorTables(rules);
   const nUnits = rules.units.length;
 
-  // Whether the interpretation's aglycone is evidenced: its Y0 (or radical Y0) ion, or a cross-ring ion of a
-  // C-linkable residue on it. Readings without either could never be annotated, so they are not pursued.
   // A cross-ring ion of a C-glycosidic core of atom mass `core` (or its water loss) is in the spectrum.
   const crossAt = (core: number, x: number, shift: number, az: number): boolean => {
     const ion = core - rules.crossRingMasses[x]!;
@@ -208,6 +206,8 @@ export function interpretPrecursor(
       hasPeak(spectrum, (ion - shift) / az, options) || hasPeak(spectrum, (ion - WATER - shift) / az, options)
     );
   };
+  // Whether the interpretation's aglycone is evidenced: its Y0 (or radical Y0) ion, or cross-ring ions of its
+  // C-glycosidic core. Readings without either could never be annotated, so they are not pursued.
   const keyIon = (ion: IonType, aglCounts: Counts, cation: boolean, compIndex: number): boolean => {
     const frag = cation ? NO_DELTA : fragmentDelta(ion, rules);
     const z = frag.charge;
@@ -248,8 +248,7 @@ export function interpretPrecursor(
     // alone would not do when it holds more: they fit every aglycone + composition split of the precursor.
     for (let a = 0; a < cResidues.length; a++) {
       const ra = cResidues[a]!;
-      const na = compositionUnits[compIndex * nUnits + ra]!;
-      if (na < 1) continue;
+      if (compositionUnits[compIndex * nUnits + ra]! < 1) continue;
       for (let b = a; b < cResidues.length; b++) {
         const rb = cResidues[b]!;
         if (compositionUnits[compIndex * nUnits + rb]! < (b === a ? 2 : 1)) continue;
