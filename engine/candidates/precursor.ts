@@ -336,6 +336,15 @@ export function interpretPrecursor(
           seen.add(k);
           const target = mNeutral - masses[k]!;
           if (target <= 0) continue; // a "Y0" at the bottom of the mass scale leaves no aglycone
+          // An "aglycone" that still loses a residue in the spectrum is a Y ion, not the aglycone (a test of
+          // its mass, so made before any formula is sought).
+          const y0Atoms = target + fragDeltaMass;
+          if (
+            residueMasses.some((m) =>
+              hasPeak(spectrum, (y0Atoms - m - fz * ELECTRON_MASS) / Math.abs(fz), options),
+            )
+          )
+            continue;
           rules.aglyconeDecomposer.forEach(
             target,
             { ppm: 0, floorDa: tol },
@@ -343,11 +352,6 @@ export function interpretPrecursor(
               if (!aglFilter(c, 0)) return;
               const key = formulaKey(c, 0);
               if (aglyconeKeys.has(key)) return; // a library aglycone: already interpreted above
-              // An "aglycone" that still loses a residue in the spectrum is a Y ion, not the aglycone.
-              const y0Atoms = target + fragDeltaMass;
-              for (const m of residueMasses) {
-                if (hasPeak(spectrum, (y0Atoms - m - fz * ELECTRON_MASS) / Math.abs(fz), options)) return;
-              }
               add(ion, { kind: 'unknown', counts: Int32Array.from(c) }, k, c);
             },
             { charge: 0 },
