@@ -170,6 +170,22 @@ function precursorTables(rules: CompiledRuleSet): PrecursorTables {
 
 const NO_DELTA = { counts: new Int32Array(NE), charge: 1 } as const;
 
+/** What a spectrum shows of one aglycone under one ion type (see `interpretPrecursor`). */
+interface AglyconeEvidence {
+  /** Atom mass of the Y0 ion, the electrons' mass of its charge, and |charge|. */
+  readonly y0: number;
+  readonly shift: number;
+  readonly az: number;
+  /** Its Y0 or radical Y0 ion is in the spectrum. */
+  readonly y0Seen: boolean;
+  /** Per cross-ring cleavage (of the C-linkable ones): seen on the mono-C core (1), not (0), not looked up (-1). */
+  readonly mono: Int8Array;
+  /** The same on each di-C core (pair of C-linkable residues). */
+  readonly di: Int8Array;
+}
+
+const NO_MEMO = new Int8Array(0);
+
 /**
  * Every precursor ion formula that an aglycone (library, or unknown with a Y0 peak in the spectrum) plus a
  * glycan composition of the rule set explains within the precursor tolerance, grouped by formula.
@@ -206,30 +222,64 @@ export function interpretPrecursor(
       hasPeak(spectrum, (ion - shift) / az, options) || hasPeak(spectrum, (ion - WATER - shift) / az, options)
     );
   };
-  // Whether the interpretation's aglycone is evidenced: its Y0 (or radical Y0) ion, or cross-ring ions of its
-  // C-glycosidic core. Readings without either could never be annotated, so they are not pursued.
-  const keyIon = (ion: IonType, aglCounts: Counts, cation: boolean, compIndex: number): boolean => {
+  const nCross = crossOnC.length;
+  const nC = cResidues.length;
+  // What the spectrum shows of one aglycone under one ion type: its Y0 (or radical Y0) ion, and — looked up
+  // once, then shared by every composition tried with the aglycone — the cross-ring ions of its C-glycosidic
+  // cores.
+  const evidenceOf = (ion: IonType, aglCounts: Counts, cation: boolean): AglyconeEvidence => {
     const frag = cation ? NO_DELTA : fragmentDelta(ion, rules);
     const z = frag.charge;
     const az = Math.abs(z);
     const shift = z * ELECTRON_MASS;
     const y0 = countsMass(aglCounts) + countsMass(frag.counts);
-    if (hasPeak(spectrum, (y0 - shift) / az, options)) return true;
-    if (polarity === 'negative' && hasPeak(spectrum, (y0 - H_MASS - shift) / az, options)) return true;
+    const y0Seen =
+      hasPeak(spectrum, (y0 - shift) / az, options) ||
+      (polarity === 'negative' && hasPeak(spectrum, (y0 - H_MASS - shift) / az, options));
+    return y0Seen
+      ? { y0, shift, az, y0Seen, mono: NO_MEMO, di: NO_MEMO }
+      : {
+          y0,
+          shift,
+          az,
+          y0Seen,
+          mono: new Int8Array(nCross).fill(-1),
+          di: new Int8Array(nC * nC * nCross).fill(-1),
+        };
+  };
+  // Cross-ring cleavage k (index into crossOnC) of a core, memoised in `memo[slot]` (-1: not looked up yet).
+  const crossMemo = (
+    ev: AglyconeEvidence,
+    memo: Int8Array,
+    slot: number,
+    core: number,
+    k: number,
+  ): boolean => {
+    let hit = memo[slot]!;
+    if (hit < 0) {
+      hit = crossAt(core, crossOnC[k]!, ev.shift, ev.az) ? 1 : 0;
+      memo[slot] = hit;
+    }
+    return hit === 1;
+  };
+  // Whether the interpretation's aglycone is evidenced: its Y0 (or radical Y0) ion, or cross-ring ions of its
+  // C-glycosidic core. Readings without either could never be annotated, so they are not pursued.
+  const keyIon = (ev: AglyconeEvidence, compIndex: number): boolean => {
+    if (ev.y0Seen) return true;
     // Cross-ring losses of the C-linkable residues the composition holds (a flat table: no pointer chase).
     if (!hasCLinkable[compIndex]) return false;
+    const { y0, shift, az } = ev;
     // A C-glycoside shows several cross-ring cleavages of its C-linked sugar (losses of 90 and 120 from a
     // C-hexoside, PMC5632855; 120 and 150, Kazuno 2005); one peak at one such loss is often a coincidence in a
     // busy spectrum, so two different cleavages are asked for (or every one the rule set defines, if fewer).
     // On the aglycone with one C-linked residue (a mono-C-glycoside after its O-linked units are gone) ...
     let monoCross = 0;
     let monoDefined = 0;
-    for (let k = 0; k < crossOnC.length; k++) {
-      const x = crossOnC[k]!;
-      const r = rules.crossRingResidue[x]!;
+    for (let k = 0; k < nCross; k++) {
+      const r = rules.crossRingResidue[crossOnC[k]!]!;
       if (compositionUnits[compIndex * nUnits + r]! < 1) continue;
       monoDefined++;
-      if (crossAt(y0 + rules.units[r]!.mass, x, shift, az)) monoCross++;
+      if (crossMemo(ev, ev.mono, k, y0 + rules.units[r]!.mass, k)) monoCross++;
       if (monoCross >= 2) return true;
     }
     if (monoCross >= 1 && monoDefined === 1) return true;
@@ -237,7 +287,7 @@ export function interpretPrecursor(
     // C-glycoside; the core ion ties it to this aglycone).
     if (monoCross >= 1) {
       let whole = 0;
-      for (let k = 0; k < crossOnC.length; k++) {
+      for (let k = 0; k < nCross; k++) {
         const x = crossOnC[k]!;
         if (compositionUnits[compIndex * nUnits + rules.crossRingResidue[x]!]! < 1) continue;
         if (crossAt(y0 + masses[compIndex]!, x, shift, az) && ++whole >= 2) return true;
@@ -246,26 +296,36 @@ export function interpretPrecursor(
     // ... or on the aglycone with two C-linked residues (a di-C-glycoside's core, its cross-ring ions starting
     // from the core: the whole molecule when the composition is just those two). The ions of the whole molecule
     // alone would not do when it holds more: they fit every aglycone + composition split of the precursor.
-    for (let a = 0; a < cResidues.length; a++) {
+    for (let a = 0; a < nC; a++) {
       const ra = cResidues[a]!;
       if (compositionUnits[compIndex * nUnits + ra]! < 1) continue;
-      for (let b = a; b < cResidues.length; b++) {
+      for (let b = a; b < nC; b++) {
         const rb = cResidues[b]!;
         if (compositionUnits[compIndex * nUnits + rb]! < (b === a ? 2 : 1)) continue;
         const core = y0 + rules.units[ra]!.mass + rules.units[rb]!.mass;
         let seen = 0;
-        for (let k = 0; k < crossOnC.length; k++) {
-          const x = crossOnC[k]!;
-          const r = rules.crossRingResidue[x]!;
-          if ((r === ra || r === rb) && crossAt(core, x, shift, az) && ++seen >= 2) return true;
+        for (let k = 0; k < nCross; k++) {
+          const r = rules.crossRingResidue[crossOnC[k]!]!;
+          if (
+            (r === ra || r === rb) &&
+            crossMemo(ev, ev.di, (a * nC + b) * nCross + k, core, k) &&
+            ++seen >= 2
+          )
+            return true;
         }
       }
     }
     return false;
   };
 
-  const add = (ion: IonType, agl: AglyconeChoice, compIndex: number, aglCounts: Counts) => {
-    if (!keyIon(ion, aglCounts, agl.kind === 'library' && agl.group.cation, compIndex)) return;
+  const add = (
+    ion: IonType,
+    agl: AglyconeChoice,
+    compIndex: number,
+    aglCounts: Counts,
+    evidence: AglyconeEvidence,
+  ) => {
+    if (!keyIon(evidence, compIndex)) return;
     const comp = rules.compositions[compIndex]!;
     const counts = new Int32Array(NE);
     for (let e = 0; e < NE; e++)
@@ -303,7 +363,10 @@ export function interpretPrecursor(
     for (const g of rules.aglyconeGroups) {
       if (g.cation !== flavylium) continue;
       const [a, b] = compositionRange(masses, massIndex, mNeutral - g.mass - tol, mNeutral - g.mass + tol);
-      for (let k = a; k < b; k++) add(ion, { kind: 'library', group: g }, k, g.counts);
+      if (a >= b) continue;
+      const evidence = evidenceOf(ion, g.counts, g.cation);
+      const agl: AglyconeChoice = { kind: 'library', group: g };
+      for (let k = a; k < b; k++) add(ion, agl, k, g.counts, evidence);
     }
   }
   for (const ion of ions) {
@@ -352,7 +415,7 @@ export function interpretPrecursor(
               if (!aglFilter(c, 0)) return;
               const key = formulaKey(c, 0);
               if (aglyconeKeys.has(key)) return; // a library aglycone: already interpreted above
-              add(ion, { kind: 'unknown', counts: Int32Array.from(c) }, k, c);
+              add(ion, { kind: 'unknown', counts: Int32Array.from(c) }, k, c, evidenceOf(ion, c, false));
             },
             { charge: 0 },
           );
