@@ -331,11 +331,16 @@ export function matchHypothesis(
     cations: [],
     generic: false,
   };
-  // Nodes found so far, by peak and formula key.
-  const found = new Map<number, FragNode>();
+  // Nodes found so far, in the order found; by formula key (the first node of that formula), and by formula and
+  // peak for the rare formula that explains two peaks. (A formula key has up to 45 bits: no room for the peak
+  // index in one exact number.)
+  const found: FragNode[] = [];
+  const byFormula = new Map<number, FragNode>();
+  const byFormulaPeak = new Map<string, FragNode>();
   const nodeFor = (p: number, counts: Counts, charge: number): FragNode => {
-    const key = formulaKey(counts, charge) * 1024 + p;
-    let node = found.get(key);
+    const key = formulaKey(counts, charge);
+    let node = byFormula.get(key);
+    if (node && node.peak !== p) node = byFormulaPeak.get(`${key}|${p}`);
     if (!node) {
       const theo = (countsMass(counts) - charge * ELECTRON_MASS) / Math.abs(charge);
       node = {
@@ -348,7 +353,9 @@ export function matchHypothesis(
         cations: [],
         generic: false,
       };
-      found.set(key, node);
+      if (byFormula.has(key)) byFormulaPeak.set(`${key}|${p}`, node);
+      else byFormula.set(key, node);
+      found.push(node);
     }
     return node;
   };
@@ -531,7 +538,7 @@ export function matchHypothesis(
     }
   });
 
-  return { hypothesis: h, nodes: [rootNode, ...found.values()], compositions: comps, cores };
+  return { hypothesis: h, nodes: [rootNode, ...found], compositions: comps, cores };
 }
 
 /** Second phase of {@link buildHypothesisGraph}: decomposition-only nodes, order, colours and edges. */
