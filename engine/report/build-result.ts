@@ -45,6 +45,8 @@ export function unassignedResult(
 
 interface Ranked {
   c: EvaluatedCandidate;
+  /** Formula key of the candidate's Y0 ion. */
+  readonly y0Key: number;
   solved: SolvedHypothesis;
   names: string[];
   classes: string[];
@@ -88,23 +90,32 @@ export function buildAnnotatedResult(
         list = [];
         buckets.set(bucket, list);
       }
-      const prev = list.find((r) => sameCandidate(r.c, c));
-      const names = agl.kind === 'library' ? agl.group.members.map((m) => m.name) : ['unknown'];
-      const classes = agl.kind === 'library' ? agl.group.members.map((m) => m.class) : [''];
+      const prev = list.find((r) => r.y0Key === y0Key && sameCandidate(r.c, c));
       const ion = c.interpretation.ion.name;
       if (!prev) {
-        const r: Ranked = { c, solved: s, names, classes, ions: names.map(() => ion) };
+        const r: Ranked =
+          agl.kind === 'library'
+            ? {
+                c,
+                y0Key,
+                solved: s,
+                names: agl.group.members.map((m) => m.name),
+                classes: agl.group.members.map((m) => m.class),
+                ions: agl.group.members.map(() => ion),
+              }
+            : { c, y0Key, solved: s, names: ['unknown'], classes: [''], ions: [ion] };
         list.push(r);
         all.push(r);
       } else {
         if (c.score > prev.c.score) prev.c = c;
-        names.forEach((n, i) => {
-          if (!prev.names.includes(n)) {
-            prev.names.push(n);
-            prev.classes.push(classes[i]!);
+        const members = agl.kind === 'library' ? agl.group.members : [{ name: 'unknown', class: '' }];
+        for (const m of members) {
+          if (!prev.names.includes(m.name)) {
+            prev.names.push(m.name);
+            prev.classes.push(m.class);
             prev.ions.push(ion);
           }
-        });
+        }
       }
     }
   }
@@ -134,18 +145,18 @@ export function buildAnnotatedResult(
   // stacking leads and the other stackings that fit ride along, so the ranks hold distinct structures rather
   // than one composition stacked several ways. User-supplied candidates always stand on their own.
   const groups: { lead: Ranked; others: Ranked[] }[] = [];
-  const byStructure = new Map<string, { lead: Ranked; others: Ranked[] }>();
+  // The groups other candidates may join (a user-supplied candidate's group is its own).
+  const shared: { lead: Ranked; others: Ranked[] }[] = [];
   for (const r of ranked) {
     if (user.userKeys.size > 0 && user.userKeys.has(candidateKey(r.c))) {
       groups.push({ lead: r, others: [] });
       continue;
     }
-    const key = structureKey(r.c);
-    const g = byStructure.get(key);
+    const g = shared.find((x) => sameStructure(x.lead, r));
     if (g) g.others.push(r);
     else {
       const fresh = { lead: r, others: [] };
-      byStructure.set(key, fresh);
+      shared.push(fresh);
       groups.push(fresh);
     }
   }
@@ -192,26 +203,30 @@ export function buildAnnotatedResult(
 const MAX_OTHER_TOPOLOGIES = 4;
 
 /**
- * Identity of a candidate's structure up to its stacking: precursor formula, Y0 formula, composition and which
- * residues are C-linked.
+ * Whether two candidates are one structure up to their stacking: precursor formula, Y0 formula, composition
+ * and which residues are C-linked (C- and O-glycosides of one composition are different structures, and
+ * different classes).
  */
-function structureKey(c: EvaluatedCandidate): string {
-  const comp =
-    c.interpretation.compositionIndex >= 0
-      ? c.interpretation.compositionIndex
-      : c.interpretation.composition.units.join(',');
-  // C- and O-glycosides of one composition are different structures (and different classes): kept apart.
-  return `${c.hypothesis.key}|${formulaKey(c.y0.counts, c.y0.charge)}|${comp}|${c.topology.cCounts.join('')}`;
+function sameStructure(a: Ranked, b: Ranked): boolean {
+  if (a.c.hypothesis.key !== b.c.hypothesis.key || a.y0Key !== b.y0Key) return false;
+  const ia = a.c.interpretation;
+  const ib = b.c.interpretation;
+  if (ia.compositionIndex !== ib.compositionIndex) return false;
+  if (ia.compositionIndex < 0 && !sameBytes(ia.composition.units, ib.composition.units)) return false;
+  return sameBytes(a.c.topology.cCounts, b.c.topology.cCounts);
 }
 
-/** Whether two candidates are one structure (what {@link candidateKey} identifies). */
-function sameCandidate(a: EvaluatedCandidate, b: EvaluatedCandidate): boolean {
-  if (a.hypothesis.key !== b.hypothesis.key || a.topology.notation !== b.topology.notation) return false;
-  if (formulaKey(a.y0.counts, a.y0.charge) !== formulaKey(b.y0.counts, b.y0.charge)) return false;
-  const ua = a.interpretation.composition.units;
-  const ub = b.interpretation.composition.units;
-  for (let u = 0; u < ua.length; u++) if (ua[u] !== ub[u]) return false;
+function sameBytes(a: Uint8Array, b: Uint8Array): boolean {
+  if (a.length !== b.length) return false;
+  for (let i = 0; i < a.length; i++) if (a[i] !== b[i]) return false;
   return true;
+}
+
+/** Whether two candidates with the same Y0 formula are one structure (what {@link candidateKey} identifies). */
+function sameCandidate(a: EvaluatedCandidate, b: EvaluatedCandidate): boolean {
+  if (a.hypothesis.key !== b.hypothesis.key) return false;
+  if (!sameBytes(a.interpretation.composition.units, b.interpretation.composition.units)) return false;
+  return a.topology.notation === b.topology.notation;
 }
 
 /** One candidate of the result: names, substituents, stackings, matched peaks and notes. */
