@@ -104,7 +104,7 @@ function hasPeak(s: CleanSpectrum, mz: number, o: PrecursorOptions): boolean {
 }
 
 /** For each whole dalton d up to the heaviest mass, the index of the first mass ≥ d (masses ascending). */
-function massBins(masses: Float64Array): Int32Array {
+export function massBins(masses: Float64Array): Int32Array {
   const top = masses.length ? Math.ceil(masses[masses.length - 1]!) + 1 : 1;
   const bins = new Int32Array(top + 1);
   let i = 0;

@@ -1,6 +1,6 @@
 import { ELECTRON_MASS } from '../chem/elements.js';
 import type { PrecursorHypothesis } from '../candidates/precursor.js';
-import { fragmentDelta } from '../candidates/precursor.js';
+import { fragmentDelta, massBins } from '../candidates/precursor.js';
 import { countsKey, LruCache } from '../candidates/cache.js';
 import type { CompiledRuleSet } from '../rules/compile.js';
 import { type CleanSpectrum, tolDa } from '../spectrum/clean.js';
@@ -98,6 +98,8 @@ interface ComboList {
   readonly pos: Int32Array;
   /** Combination index by position. */
   readonly byPos: Int32Array;
+  /** Where the masses of each whole dalton start ({@link massBins}): a lookup instead of a binary search. */
+  readonly bins: Int32Array;
 }
 
 /** The four lists a fragment may use: plain losses, ladder ends (plus multi-loss), cross-ring, both. */
@@ -123,9 +125,11 @@ function comboLists(rules: CompiledRuleSet, polarity: 'positive' | 'negative'): 
     const byMass = order
       .map((k, pos) => ({ k, pos }))
       .sort((a, b) => rules.lossCombos[a.k]!.mass - rules.lossCombos[b.k]!.mass);
+    const mass = Float64Array.from(byMass, (x) => rules.lossCombos[x.k]!.mass);
     return {
       ids: Int32Array.from(byMass, (x) => x.k),
-      mass: Float64Array.from(byMass, (x) => rules.lossCombos[x.k]!.mass),
+      mass,
+      bins: massBins(mass),
       pos: Int32Array.from(byMass, (x) => x.pos),
       byPos: Int32Array.from(order),
     };
@@ -439,13 +443,9 @@ export function matchHypothesis(
           for (let radical = 0; radical <= maxRadical; radical++) {
             // The loss mass this peak asks of a combination, then the combinations near it.
             const need = rest - radical * H_MASS - atomsOf[p]!;
-            let a = 0;
-            let b = list.mass.length;
-            while (a < b) {
-              const m = (a + b) >> 1;
-              if (list.mass[m]! < need - slack) a = m + 1;
-              else b = m;
-            }
+            const low = need - slack;
+            let a = low <= 0 ? 0 : low >= list.bins.length ? list.mass.length : list.bins[Math.floor(low)]!;
+            while (a < list.mass.length && list.mass[a]! < low) a++;
             for (let q = a; q < list.mass.length && list.mass[q]! <= need + slack; q++) {
               const k = list.ids[q]!;
               const combo = rules.lossCombos[k]!;
