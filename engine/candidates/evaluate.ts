@@ -281,7 +281,7 @@ export function screenInterpretations(
       let cLinkable = 0;
       let diagnosticCost = Number.POSITIVE_INFINITY;
       compUnits.forEach((k, u) => {
-        if (k === 0 || !rules.units[u]!.linkages.includes('C')) return;
+        if (k === 0 || rules.cLinkable[u] !== 1) return;
         cLinkable += k;
         let cost = 0;
         for (const x of rules.diagnosticCrossRing.get(u) ?? [])

@@ -252,7 +252,7 @@ export function subMultisets(units: Uint8Array): Uint8Array[] {
 
 function sum(a: Uint8Array): number {
   let s = 0;
-  for (const x of a) s += x;
+  for (let i = 0; i < a.length; i++) s += a[i]!;
   return s;
 }
 
@@ -402,8 +402,12 @@ export function matchHypothesis(
   const radicalOk = options.polarity === 'negative';
   const coreMasses = cores.map((k) => countsMass(k.counts));
   comps.forEach((compUnits, ci) => {
-    const hasC = compUnits.some((n, u) => n > 0 && units[u]!.linkages.includes('C'));
-    const total = sum(compUnits);
+    let hasC = false;
+    let total = 0;
+    for (let u = 0; u < nU; u++) {
+      total += compUnits[u]!;
+      if (compUnits[u]! > 0 && rules.cLinkable[u] === 1) hasC = true;
+    }
     const subs = subMultisetsCached(compUnits, rules);
     for (let si = 0; si < subs.list.length; si++) {
       const sub = subs.list[si]!;

@@ -73,6 +73,8 @@ export interface CompiledRuleSet {
   readonly units: readonly Unit[];
   /** 1 for each unit that is a residue, 0 for an acyl group (the hot paths' view of `units[u].kind`). */
   readonly isResidue: Uint8Array;
+  /** 1 for each unit that may be C-linked (a residue with linkage C), 0 otherwise. */
+  readonly cLinkable: Uint8Array;
   /** Prior score per occurrence of each unit. */
   readonly unitPriors: readonly number[];
   readonly residueCount: number;
@@ -251,6 +253,7 @@ export function compileRuleSet(rules: RuleSet): CompiledRuleSet {
     rules,
     units,
     isResidue: Uint8Array.from(units, (u) => (u.kind === 'residue' ? 1 : 0)),
+    cLinkable: Uint8Array.from(units, (u) => (u.kind === 'residue' && u.linkages.includes('C') ? 1 : 0)),
     unitPriors: [...rules.residues.map((r) => r.prior), ...rules.acyls.map((a) => a.prior)],
     residueCount,
     compositions,
