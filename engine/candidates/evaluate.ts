@@ -404,7 +404,9 @@ export function evaluateTopologies(
   const hg = s.matched;
   const compUnits = hg.compositions[s.comp]!;
   const precursorShare = spectrum.precursorIndex >= 0 ? spectrum.intensity[spectrum.precursorIndex]! : 0;
-  const crossSeen = readings.some((r) => r.list.some((x) => x.kind === 2));
+  let crossSeen = false;
+  for (let r = 0; r < readings.length && !crossSeen; r++)
+    for (const x of readings[r]!.list) if (x.kind === 2) crossSeen = true;
   // Interpretations that share a composition and its readings (same-formula aglycone groups, ion types)
   // rank the topologies identically: reuse the first search, shifted by the difference in fixed terms.
   const shared = options.only ? undefined : options.runs?.get(readings);
@@ -434,17 +436,25 @@ export function evaluateTopologies(
   const bKeys: number[] = [];
   const yIndex = new Map<number, number>();
   const bIndex = new Map<number, number>();
-  const entryStart = new Int32Array(readings.length + 1);
+  // (Scratch buffers, valid for this call: typed arrays above 64 bytes are allocated outside the JS heap, slowly.)
+  if (entryStartScratch.length < readings.length + 1)
+    entryStartScratch = new Int32Array(Math.max(readings.length + 1, 2 * entryStartScratch.length));
+  const entryStart = entryStartScratch;
   let entries = 0;
   for (let r = 0; r < readings.length; r++) {
     entryStart[r] = entries;
     entries += readings[r]!.list.length;
   }
   entryStart[readings.length] = entries;
-  const entryKey = new Int32Array(entries);
+  if (entryKeyScratch.length < entries)
+    entryKeyScratch = new Int32Array(Math.max(entries, 2 * entryKeyScratch.length));
+  const entryKey = entryKeyScratch;
   for (let r = 0; r < readings.length; r++) {
-    readings[r]!.list.forEach((x, k) => {
-      const [keys, index] = x.kind === 3 ? [bKeys, bIndex] : [yKeys, yIndex];
+    const list = readings[r]!.list;
+    for (let k = 0; k < list.length; k++) {
+      const x = list[k]!;
+      const keys = x.kind === 3 ? bKeys : yKeys;
+      const index = x.kind === 3 ? bIndex : yIndex;
       let i = index.get(x.key);
       if (i === undefined) {
         i = keys.length;
@@ -452,7 +462,7 @@ export function evaluateTopologies(
         index.set(x.key, i);
       }
       entryKey[entryStart[r]! + k] = i;
-    });
+    }
   }
   const yAdmitted = new Uint8Array(yKeys.length);
   const bAdmitted = new Uint8Array(bKeys.length);
@@ -567,6 +577,10 @@ export function evaluateTopologies(
   if (!options.only) options.runs?.set(readings, { comp: s.comp, fixed, prior: s.prior, candidates });
   return keepBest(candidates, options.best.score - window);
 }
+
+/** Scratch of {@link evaluateTopologies}: where each peak's readings start, and each reading's key index. */
+let entryStartScratch = new Int32Array(64);
+let entryKeyScratch = new Int32Array(256);
 
 /** Whether a topology has C-linked residues for every cleavage of a cross-ring reading. */
 function cleavable(topo: Topology, cleaved: readonly number[]): boolean {
