@@ -659,20 +659,25 @@ export function candidateMatches(c: EvaluatedCandidate, rules: CompiledRuleSet):
 
 /** Ions a candidate predicts but the spectrum lacks: 'Y0', 'X' (cross-ring ions) or Y-loss keys. */
 export function candidateMissing(c: EvaluatedCandidate): (number | 'Y0' | 'X')[] {
-  const seen = new Set<number>();
+  // Y-loss keys the candidate reads as Y ions (a handful: a list, not a set).
+  const seen: number[] = [];
   let cross = false;
-  c.readings.forEach((r, i) => {
+  for (let i = 0; i < c.readings.length; i++) {
     const k = c.chosen[i]!;
-    if (k < 0) return;
-    const x = r.list[k]!;
-    if (x.kind === 0) seen.add(x.key);
-    if (x.kind === 2) cross = true;
-  });
+    if (k < 0) continue;
+    const x = c.readings[i]!.list[k]!;
+    if (x.kind === 0) seen.push(x.key);
+    else if (x.kind === 2) cross = true;
+  }
   const out: (number | 'Y0' | 'X')[] = [];
   const t = c.topology;
-  if (!t.cLinked && !seen.has(t.y0Loss)) out.push('Y0');
+  if (!t.cLinked && !seen.includes(t.y0Loss)) out.push('Y0');
   if (t.cLinked && !cross) out.push('X');
-  for (const key of t.yLosses) if (key !== 0 && key !== t.y0Loss && !seen.has(key)) out.push(key);
+  const keys = t.yLosses;
+  for (let i = 0; i < keys.size; i++) {
+    const key = keys.keys[keys.offset + i]!;
+    if (key !== 0 && key !== t.y0Loss && !seen.includes(key)) out.push(key);
+  }
   return out;
 }
 

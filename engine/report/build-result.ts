@@ -224,9 +224,9 @@ function sameBytes(a: Uint8Array, b: Uint8Array): boolean {
 
 /** Whether two candidates with the same Y0 formula are one structure (what {@link candidateKey} identifies). */
 function sameCandidate(a: EvaluatedCandidate, b: EvaluatedCandidate): boolean {
-  if (a.hypothesis.key !== b.hypothesis.key) return false;
-  if (!sameBytes(a.interpretation.composition.units, b.interpretation.composition.units)) return false;
-  return a.topology.notation === b.topology.notation;
+  // The stacking first: a bucket holds the other stackings of the same interpretation.
+  if (a.hypothesis.key !== b.hypothesis.key || a.topology.notation !== b.topology.notation) return false;
+  return sameBytes(a.interpretation.composition.units, b.interpretation.composition.units);
 }
 
 /** One candidate of the result: names, substituents, stackings, matched peaks and notes. */
@@ -318,8 +318,11 @@ function candidateResult(
   return { result, note, stackingTie };
 }
 
+/** Powers of ten for {@link round} (a table: `10 ** digits` is a call to the power function). */
+const POW10 = [1, 10, 100, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8];
+
 function round(x: number, digits: number): number {
-  const f = 10 ** digits;
+  const f = POW10[digits] ?? 10 ** digits;
   return Math.round(x * f) / f;
 }
 
