@@ -178,13 +178,7 @@ interface AglyconeEvidence {
   readonly az: number;
   /** Its Y0 or radical Y0 ion is in the spectrum. */
   readonly y0Seen: boolean;
-  /** Per cross-ring cleavage (of the C-linkable ones): seen on the mono-C core (1), not (0), not looked up (-1). */
-  readonly mono: Int8Array;
-  /** The same on each di-C core (pair of C-linkable residues). */
-  readonly di: Int8Array;
 }
-
-const NO_MEMO = new Int8Array(0);
 
 /**
  * Every precursor ion formula that an aglycone (library, or unknown with a Y0 peak in the spectrum) plus a
@@ -224,9 +218,13 @@ export function interpretPrecursor(
   };
   const nCross = crossOnC.length;
   const nC = cResidues.length;
-  // What the spectrum shows of one aglycone under one ion type: its Y0 (or radical Y0) ion, and — looked up
-  // once, then shared by every composition tried with the aglycone — the cross-ring ions of its C-glycosidic
-  // cores.
+  // The cross-ring ions of the latest aglycone's C-glycosidic cores, looked up once and then shared by every
+  // composition tried with that aglycone: per cleavage k (index into crossOnC), seen (1), not (0) or not looked
+  // up yet (-1) on the mono-C core at [k], on the di-C core of C-linkable residues a ≤ b at
+  // [nCross + (a · nC + b) · nCross + k]. Each aglycone's compositions are tried before the next aglycone's.
+  const memo = new Int8Array(nCross + nC * nC * nCross);
+  // What the spectrum shows of one aglycone under one ion type: its Y0 (or radical Y0) ion (and a fresh memo of
+  // its cross-ring ions).
   const evidenceOf = (ion: IonType, aglCounts: Counts, cation: boolean): AglyconeEvidence => {
     const frag = cation ? NO_DELTA : fragmentDelta(ion, rules);
     const z = frag.charge;
@@ -236,25 +234,11 @@ export function interpretPrecursor(
     const y0Seen =
       hasPeak(spectrum, (y0 - shift) / az, options) ||
       (polarity === 'negative' && hasPeak(spectrum, (y0 - H_MASS - shift) / az, options));
-    return y0Seen
-      ? { y0, shift, az, y0Seen, mono: NO_MEMO, di: NO_MEMO }
-      : {
-          y0,
-          shift,
-          az,
-          y0Seen,
-          mono: new Int8Array(nCross).fill(-1),
-          di: new Int8Array(nC * nC * nCross).fill(-1),
-        };
+    if (!y0Seen) memo.fill(-1);
+    return { y0, shift, az, y0Seen };
   };
-  // Cross-ring cleavage k (index into crossOnC) of a core, memoised in `memo[slot]` (-1: not looked up yet).
-  const crossMemo = (
-    ev: AglyconeEvidence,
-    memo: Int8Array,
-    slot: number,
-    core: number,
-    k: number,
-  ): boolean => {
+  // Cross-ring cleavage k of a core of atom mass `core`, memoised in `memo[slot]`.
+  const crossMemo = (ev: AglyconeEvidence, slot: number, core: number, k: number): boolean => {
     let hit = memo[slot]!;
     if (hit < 0) {
       hit = crossAt(core, crossOnC[k]!, ev.shift, ev.az) ? 1 : 0;
@@ -279,7 +263,7 @@ export function interpretPrecursor(
       const r = rules.crossRingResidue[crossOnC[k]!]!;
       if (compositionUnits[compIndex * nUnits + r]! < 1) continue;
       monoDefined++;
-      if (crossMemo(ev, ev.mono, k, y0 + rules.units[r]!.mass, k)) monoCross++;
+      if (crossMemo(ev, k, y0 + rules.units[r]!.mass, k)) monoCross++;
       if (monoCross >= 2) return true;
     }
     if (monoCross >= 1 && monoDefined === 1) return true;
@@ -308,7 +292,7 @@ export function interpretPrecursor(
           const r = rules.crossRingResidue[crossOnC[k]!]!;
           if (
             (r === ra || r === rb) &&
-            crossMemo(ev, ev.di, (a * nC + b) * nCross + k, core, k) &&
+            crossMemo(ev, nCross + (a * nC + b) * nCross + k, core, k) &&
             ++seen >= 2
           )
             return true;
