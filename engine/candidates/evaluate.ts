@@ -436,19 +436,14 @@ export function evaluateTopologies(
   const bKeys: number[] = [];
   const yIndex = new Map<number, number>();
   const bIndex = new Map<number, number>();
-  // (Scratch buffers, valid for this call: typed arrays above 64 bytes are allocated outside the JS heap, slowly.)
-  if (entryStartScratch.length < readings.length + 1)
-    entryStartScratch = new Int32Array(Math.max(readings.length + 1, 2 * entryStartScratch.length));
-  const entryStart = entryStartScratch;
+  const entryStart = new Int32Array(readings.length + 1);
   let entries = 0;
   for (let r = 0; r < readings.length; r++) {
     entryStart[r] = entries;
     entries += readings[r]!.list.length;
   }
   entryStart[readings.length] = entries;
-  if (entryKeyScratch.length < entries)
-    entryKeyScratch = new Int32Array(Math.max(entries, 2 * entryKeyScratch.length));
-  const entryKey = entryKeyScratch;
+  const entryKey = new Int32Array(entries);
   for (let r = 0; r < readings.length; r++) {
     const list = readings[r]!.list;
     for (let k = 0; k < list.length; k++) {
@@ -577,10 +572,6 @@ export function evaluateTopologies(
   if (!options.only) options.runs?.set(readings, { comp: s.comp, fixed, prior: s.prior, candidates });
   return keepBest(candidates, options.best.score - window);
 }
-
-/** Scratch of {@link evaluateTopologies}: where each peak's readings start, and each reading's key index. */
-let entryStartScratch = new Int32Array(64);
-let entryKeyScratch = new Int32Array(256);
 
 /** Whether a topology has C-linked residues for every cleavage of a cross-ring reading. */
 function cleavable(topo: Topology, cleaved: readonly number[]): boolean {
