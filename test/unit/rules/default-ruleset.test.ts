@@ -20,13 +20,13 @@ const loss = (section: 'residues' | 'acyls' | 'smallLosses' | 'crossRing' | 'add
 };
 
 describe('the default rule set', () => {
-  it('loads with no errors, named default 1.1.0 with a changelog entry for its version', () => {
+  it('loads with no errors, named default 1.2.0 with a changelog entry for its version', () => {
     expect(loaded.errors).toEqual([]);
     expect(rules.name).toBe('default');
-    expect(rules.version).toBe('1.1.0');
+    expect(rules.version).toBe('1.2.0');
     expect(rules.changelog.some((c) => c.version === rules.version)).toBe(true);
     expect(loaded.sha256).toMatch(/^[0-9a-f]{64}$/);
-    expect(loaded.ref).toEqual({ name: 'default', version: '1.1.0', sha256: loaded.sha256 });
+    expect(loaded.ref).toEqual({ name: 'default', version: '1.2.0', sha256: loaded.sha256 });
   });
 
   it('warns only about same-formula aglycones (ties), never about anything else', () => {
@@ -91,7 +91,7 @@ describe('the default rule set', () => {
     for (const section of ['scoring', 'cleanup', 'limits', 'tolerances'] as const) {
       for (const key of Object.keys(rules[section])) expect(raw).toMatch(new RegExp(`^\\s+${key}:`, 'm'));
     }
-    expect(rules.tolerances).toEqual({ precursorPpm: 5, fragmentPpm: 10, fragmentFloorDa: 0.002 });
+    expect(rules.tolerances).toEqual({ precursorPpm: 7, fragmentPpm: 10, fragmentFloorDa: 0.002 });
   });
 });
 

@@ -36,7 +36,7 @@ describe('peel rules check', () => {
   it('passes the default rule set and prints its summary', async () => {
     const t = io(dir);
     expect(await main(['rules', 'check', defaultRuleSetPath()], t.io)).toBe(0);
-    expect(t.out()).toMatch(/valid, default 1\.1\.0 \(sha256 [0-9a-f]{64}\): 4 residues, 10 acyl groups/);
+    expect(t.out()).toMatch(/valid, default 1\.2\.0 \(sha256 [0-9a-f]{64}\): 4 residues, 10 acyl groups/);
   });
 
   it('fails a broken file and names the line', async () => {
