@@ -618,15 +618,14 @@ function insertSorted(list: Kept[], c: Kept): void {
   list[i] = c;
 }
 
-/** The best few distinct stackings at or above a score. */
+/** The best few stackings at or above a score. */
 function keepBest(list: EvaluatedCandidate[], floor: number): EvaluatedCandidate[] {
+  // The list holds distinct stackings already (an enumeration lists each once, a search scores each shape
+  // once), so none is dropped as a repeat: their notations are written only for the candidates reported.
   const sorted = [...list].sort((a, b) => b.score - a.score);
   const out: EvaluatedCandidate[] = [];
-  const seen = new Set<string>();
   for (const c of sorted) {
     if (out.length >= KEEP || c.score < floor) break;
-    if (seen.has(c.topology.notation)) continue;
-    seen.add(c.topology.notation);
     out.push(c);
   }
   return out;

@@ -224,8 +224,12 @@ function sameBytes(a: Uint8Array, b: Uint8Array): boolean {
 
 /** Whether two candidates with the same Y0 formula are one structure (what {@link candidateKey} identifies). */
 function sameCandidate(a: EvaluatedCandidate, b: EvaluatedCandidate): boolean {
-  // The stacking first: a bucket holds the other stackings of the same interpretation.
-  if (a.hypothesis.key !== b.hypothesis.key || a.topology.notation !== b.topology.notation) return false;
+  if (a.hypothesis.key !== b.hypothesis.key) return false;
+  if (a.topology !== b.topology) {
+    // A bucket holds the other stackings of one interpretation: distinct topologies there are distinct
+    // stackings (each is scored once), so their notations need not be written to tell them apart.
+    if (a.interpretation === b.interpretation || a.topology.notation !== b.topology.notation) return false;
+  }
   return sameBytes(a.interpretation.composition.units, b.interpretation.composition.units);
 }
 
