@@ -596,7 +596,7 @@ export function finishGraph(
   }
 
   // Topological order: heavier ions (by atoms) first; the root stays first.
-  const atomMass = new Float64Array(nodes.length);
+  const atomMass: number[] = new Array(nodes.length).fill(0);
   for (let i = 1; i < nodes.length; i++) atomMass[i] = countsMass(nodes[i]!.counts);
   const byMass = Array.from({ length: nodes.length - 1 }, (_, i) => i + 1).sort(
     (a, b) => atomMass[b]! - atomMass[a]!,
@@ -621,7 +621,7 @@ export function finishGraph(
 
   // Edges come out child by child, parents ascending: already the CSR order of incoming edges.
   const n = ordered.length;
-  const inStart = new Int32Array(n + 1);
+  const inStart: number[] = new Array(n + 1).fill(0);
   const inFrom: number[] = [];
   const inWeight: number[] = [];
   const edgeKind: LossKind[] = [];
@@ -640,17 +640,9 @@ export function finishGraph(
     }
   }
   inStart[n] = inFrom.length;
-  const col = Int32Array.from(colour);
   let colourCount = 0;
-  for (const c of col) colourCount = Math.max(colourCount, c + 1);
-  const graph: FragGraph = {
-    nodeCount: n,
-    colour: col,
-    colourCount,
-    inStart,
-    inFrom: Int32Array.from(inFrom),
-    inWeight: Float64Array.from(inWeight),
-  };
+  for (const c of colour) colourCount = Math.max(colourCount, c + 1);
+  const graph: FragGraph = { nodeCount: n, colour, colourCount, inStart, inFrom, inWeight };
   return { graph, nodes: ordered, compositions: comps, edgeKind, cores };
 }
 

@@ -131,8 +131,10 @@ export function cleanSpectrum(spectrum: Spectrum, options: CleanOptions): CleanS
     order.sort((a, b) => a - b);
   }
   const n = order.length;
-  const outMz = new Float64Array(n);
-  const outIt = new Float64Array(n);
+  // m/z and intensities in one buffer (one allocation outside the JS heap instead of two).
+  const both = new Float64Array(2 * n);
+  const outMz = both.subarray(0, n);
+  const outIt = both.subarray(n);
   const outIso = new Uint8Array(n);
   let total = 0;
   for (let k = 0; k < n; k++) total += it[order[k]!]!;

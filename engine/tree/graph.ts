@@ -7,12 +7,16 @@
 export interface FragGraph {
   readonly nodeCount: number;
   /** Colour (peak) of each node; the root has its own colour. */
-  readonly colour: Int32Array;
+  readonly colour: readonly number[];
   readonly colourCount: number;
-  /** Incoming edges of node v are `inFrom[inStart[v] .. inStart[v+1])` with weights `inWeight[…]`. */
-  readonly inStart: Int32Array;
-  readonly inFrom: Int32Array;
-  readonly inWeight: Float64Array;
+  /**
+   * Incoming edges of node v are `inFrom[inStart[v] .. inStart[v+1])` with weights `inWeight[…]`. (Plain
+   * arrays: a graph lives for one spectrum, and typed arrays of more than 64 bytes are allocated outside the
+   * JS heap, at a microsecond or more each.)
+   */
+  readonly inStart: readonly number[];
+  readonly inFrom: readonly number[];
+  readonly inWeight: readonly number[];
 }
 
 /** A colorful subtree: each node's parent (-1 when left out; the root is its own parent). */
@@ -31,7 +35,7 @@ export function buildGraph(
   edges: readonly { from: number; to: number; weight: number }[],
 ): FragGraph {
   const n = colour.length;
-  const inStart = new Int32Array(n + 1);
+  const inStart: number[] = new Array(n + 1).fill(0);
   for (const e of edges) {
     if (!(e.from < e.to) || e.to >= n || e.from < 0)
       throw new RangeError(`edge ${e.from}→${e.to} breaks the order`);
@@ -39,14 +43,14 @@ export function buildGraph(
   }
   for (let v = 0; v < n; v++) inStart[v + 1]! += inStart[v]!;
   const fill = inStart.slice(0, n);
-  const inFrom = new Int32Array(edges.length);
-  const inWeight = new Float64Array(edges.length);
+  const inFrom: number[] = new Array(edges.length).fill(0);
+  const inWeight: number[] = new Array(edges.length).fill(0);
   for (const e of edges) {
     const k = fill[e.to]!++;
     inFrom[k] = e.from;
     inWeight[k] = e.weight;
   }
-  const col = Int32Array.from(colour);
+  const col = Array.from(colour);
   let colourCount = 0;
   for (const c of col) colourCount = Math.max(colourCount, c + 1);
   return { nodeCount: n, colour: col, colourCount, inStart, inFrom, inWeight };
