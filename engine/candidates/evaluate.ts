@@ -249,30 +249,30 @@ export function screenInterpretations(
         : 0;
     // Priors: how common the units and the ion type are; they order readings the evidence cannot separate.
     let prior = -(rules.rules.ionTypes.penalties[interp.ion.name] ?? 0);
-    compUnits.forEach((n, u) => {
-      prior += n * rules.unitPriors[u]!;
-    });
+    for (let u = 0; u < compUnits.length; u++) prior += compUnits[u]! * rules.unitPriors[u]!;
     const fixed = -ppmTerm - unknown - 0.1 * nUnits + prior + envelopeTerm;
     // Bare Y0 (every unit lost) or a cross-ring ion: without either, every topology pays the Y0 penalty.
     const allKey = removedKey(compUnits);
     let y0Seen = false;
     let crossSeen = false;
-    const yKeys = new Set<number>();
-    const crossCleavages = new Set<number>();
+    // Distinct intermediate Y-loss keys and cross-ring cleavages read (a handful each: lists, not sets).
+    const yKeys: number[] = [];
+    const crossCleavages: number[] = [];
     for (const r of readings)
       for (const x of r.list) {
         if (x.kind === 0 && x.key === allKey) y0Seen = true;
         if (x.kind === 2) {
           crossSeen = true;
           const combo = rules.lossCombos[x.deriv!.combo]!;
-          crossCleavages.add(combo.crossRing);
-          if (combo.crossRing2 >= 0) crossCleavages.add(combo.crossRing2);
+          if (!crossCleavages.includes(combo.crossRing)) crossCleavages.push(combo.crossRing);
+          if (combo.crossRing2 >= 0 && !crossCleavages.includes(combo.crossRing2))
+            crossCleavages.push(combo.crossRing2);
         }
-        if (x.kind === 0 && x.key !== 0 && x.key !== allKey) yKeys.add(x.key);
+        if (x.kind === 0 && x.key !== 0 && x.key !== allKey && !yKeys.includes(x.key)) yKeys.push(x.key);
       }
     // Every topology predicts at least one Y ion per retained-unit count (a linear extension's prefixes): with
     // n units of which c are C-linked (fixed), n − c − 1 intermediate Y ions, each missing one costed.
-    const missingYCost = (c: number) => 0.25 * w.missingIon * Math.max(0, nUnits - c - 1 - yKeys.size);
+    const missingYCost = (c: number) => 0.25 * w.missingIon * Math.max(0, nUnits - c - 1 - yKeys.length);
     // O-linked topologies pay for a missing bare Y0 (every unit lost).
     let screenScore = 10 * bound[ci]! + fixed - (y0Seen ? 0 : 2 * w.missingIon) - missingYCost(0);
     if (crossSeen) {
@@ -280,14 +280,15 @@ export function screenInterpretations(
       // C-linkage prior, and the diagnostic cross-ring ions missing for the least-penalised C-linkable residue.
       let cLinkable = 0;
       let diagnosticCost = Number.POSITIVE_INFINITY;
-      compUnits.forEach((k, u) => {
-        if (k === 0 || rules.cLinkable[u] !== 1) return;
+      for (let u = 0; u < compUnits.length; u++) {
+        const k = compUnits[u]!;
+        if (k === 0 || rules.cLinkable[u] !== 1) continue;
         cLinkable += k;
         let cost = 0;
         for (const x of rules.diagnosticCrossRing.get(u) ?? [])
-          if (!crossCleavages.has(x)) cost += 0.5 * w.missingIon;
+          if (!crossCleavages.includes(x)) cost += 0.5 * w.missingIon;
         diagnosticCost = Math.min(diagnosticCost, cost);
-      });
+      }
       if (cLinkable > 0) {
         const cBound =
           10 * bound[ci]! + fixed - w.cLinkage - diagnosticCost - missingYCost(Math.min(2, cLinkable));
