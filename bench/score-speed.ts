@@ -202,7 +202,7 @@ ${passes} × ${fmt(per)} simulated spectra (${GENERATOR}, seed ${seed}; ${fmt(de
 measurements) with ≤ ${MAX_PEAKS} peaks (median ${quantile(peaks, 0.5)}, max ${peaks.at(-1)}) and precursor ions
 ≤ ${fmt(MAX_PRECURSOR_DA)} Da (${dropped} generated spectra outside these limits left out), scored with
 \`scoreSpectrum\` and rule set ${rules.name} ${rules.version} in one Node process on one thread (no workers; the
-garbage collector's helper threads aside), after a warm-up on ${warmed} other spectra. Each of the
+garbage collector's helper threads aside), after a warm-up on ${fmt(warmed)} other spectra (scored as generated, then dropped). Each of the
 ${passes} timed passes scores its own ${fmt(per)} spectra (no spectrum is scored twice, so no pass profits from having seen it;
 the engine's caches built on earlier spectra carry over, as in a real run); the table gives the median pass, and the
 result and tree counts cover all passes. Generating the spectra took ${genSeconds.toFixed(1)} s (not timed); the timed ones
