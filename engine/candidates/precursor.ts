@@ -155,12 +155,12 @@ function precursorTables(rules: CompiledRuleSet): PrecursorTables {
       }),
       residueMasses: rules.units.filter((u) => u.kind === 'residue').map((u) => u.mass),
       aglyconeKeys: new Set(rules.aglyconeGroups.map((g) => formulaKey(g.counts, g.cation ? 1 : 0))),
-      crossOnC: rules.crossRingResidue.flatMap((r, x) => (rules.units[r]!.linkages.includes('C') ? [x] : [])),
-      cResidues: [...new Set(rules.crossRingResidue.filter((r) => rules.units[r]!.linkages.includes('C')))],
+      crossOnC: rules.crossRingResidue.flatMap((r, x) => (rules.cLinkable[r] === 1 ? [x] : [])),
+      cResidues: [...new Set(rules.crossRingResidue.filter((r) => rules.cLinkable[r] === 1))],
       massIndex: massBins(rules.compositionMasses),
       compositionUnits: Uint8Array.from(rules.compositions.flatMap((c) => Array.from(c.units))),
       hasCLinkable: Uint8Array.from(rules.compositions, (c) =>
-        rules.crossRingResidue.some((r) => c.units[r]! > 0 && rules.units[r]!.linkages.includes('C')) ? 1 : 0,
+        rules.crossRingResidue.some((r) => c.units[r]! > 0 && rules.cLinkable[r] === 1) ? 1 : 0,
       ),
     };
     precursorTableCache.set(rules, t);

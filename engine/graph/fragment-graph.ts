@@ -78,12 +78,12 @@ export interface GraphOptions {
 }
 
 /** Whether every unit a fragment keeps (composition − removed) is a residue that may be C-linked. */
-function keepsOnlyCLinkable(comp: Uint8Array, removed: Uint8Array, units: CompiledRuleSet['units']): boolean {
+function keepsOnlyCLinkable(comp: Uint8Array, removed: Uint8Array, cLinkable: Uint8Array): boolean {
   let kept = 0;
   for (let u = 0; u < comp.length; u++) {
     const n = comp[u]! - removed[u]!;
     if (n === 0) continue;
-    if (units[u]!.kind !== 'residue' || !units[u]!.linkages.includes('C')) return false;
+    if (cLinkable[u] !== 1) return false;
     kept += n;
   }
   return kept > 0;
@@ -204,7 +204,7 @@ function subMultisetsCached(units: Uint8Array, rules: CompiledRuleSet): SubMulti
     // One shared record per distinct vector: [Hex] is a sub-multiset of thousands of compositions.
     const list = subMultisets(units).map((v) => internVector(v, rules));
     const keepsCOnly = Uint8Array.from(list, (r) =>
-      keepsOnlyCLinkable(units, r.units, rules.units) ? 1 : 0,
+      keepsOnlyCLinkable(units, r.units, rules.cLinkable) ? 1 : 0,
     );
     return { list, keepsCOnly };
   });
